@@ -1,0 +1,1 @@
+//! Writing results: CSV and JSON (atomically), SVG charts, the HTML report.
