@@ -2,8 +2,10 @@
 //! with file:line:column errors, and the per-stand derived covariates.
 
 mod frame;
+pub mod units;
 
 pub use frame::{Frame, FrameColumn};
+pub use units::Units;
 
 /// An error in input data. Every variant names the file; cell errors also name the line
 /// (1-based, the header being line 1) and the column.

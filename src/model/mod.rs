@@ -1,6 +1,7 @@
 //! Model specification, fitting and storage: predictor terms, the binomial GLM (IRLS), the
 //! growth OLS, diagnostics, and the model file format.
 
+pub mod design;
 pub mod diagnostics;
 pub mod file;
 pub mod glm;
@@ -8,6 +9,7 @@ pub mod growth;
 pub mod linalg;
 pub mod link;
 pub mod separation;
+pub mod stored;
 pub mod survival;
 pub mod terms;
 
@@ -44,7 +46,9 @@ pub enum ModelError {
         terms: Vec<String>,
     },
     /// The iterative fit did not converge (a runtime failure, exit code 1).
-    #[error("the fit did not converge in {iterations} iterations (last deviance {deviance}); {hint}")]
+    #[error(
+        "the fit did not converge in {iterations} iterations (last deviance {deviance}); {hint}"
+    )]
     NotConverged {
         /// Iterations performed.
         iterations: usize,

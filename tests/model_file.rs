@@ -1,0 +1,62 @@
+//! Model files typed by hand (design §6) load; malformed ones are refused with the key named.
+
+use std::path::Path;
+
+use stemcast::model::file::{IntervalKind, ModelFile, Outcome};
+use stemcast::model::link::Link;
+use stemcast::model::stored::Model;
+
+#[test]
+fn hand_typed_survival_model_loads_with_defaults() {
+    // Coefficients typed from design.md §6's example.
+    let m = Model::read(Path::new("tests/fixtures/models/hand_typed_survival.toml")).unwrap();
+    let Model::Survival(s) = m else {
+        panic!("expected a survival model")
+    };
+    assert_eq!(s.link, Link::Logit);
+    assert_eq!(s.outcome, Outcome::Alive);
+    assert_eq!(s.interval, IntervalKind::Fixed);
+    assert_eq!(s.common.period_years, Some(5.0));
+    assert_eq!(
+        s.common.predictor.names(),
+        vec!["(intercept)", "dbh", "dbh^2", "bal", "treatment=b"]
+    );
+    assert_eq!(
+        s.common.predictor.coefficients(),
+        vec![1.2, 0.15, -0.0012, -0.04, -0.6]
+    );
+    assert_eq!(s.common.covariance.unwrap().matrix[4][4], 0.004);
+}
+
+fn refused(text: &str, key: &str) {
+    let e = ModelFile::parse(text, "m.toml")
+        .and_then(|raw| Model::from_file(raw, "m.toml"))
+        .unwrap_err()
+        .to_string();
+    assert!(e.starts_with("m.toml: "), "{e}");
+    assert!(e.contains(key), "expected `{key}` in: {e}");
+}
+
+#[test]
+fn malformed_model_files_name_the_key() {
+    let base = "kind = \"survival\"\nlink = \"logit\"\n[[coefficients]]\nterm = \"(intercept)\"\nestimate = 1.0\n";
+    refused(&base.replace("logit", "logistic"), "link");
+    refused(&format!("{base}colour = 3\n"), "colour");
+    refused(
+        &format!("{base}[[coefficients]]\nterm = \"ln(bal)\"\nestimate = 1.0\n"),
+        "coefficients[1]",
+    );
+    refused(
+        &format!("{base}[[coefficients]]\nterm = \"sp=pine\"\nestimate = 1.0\n"),
+        "categorical",
+    );
+    refused(
+        &base.replace("kind = \"survival\"", "kind = \"growth\""),
+        "link",
+    );
+    refused(&format!("{base}period_years = -5\n"), "period_years");
+    refused(
+        &format!("{base}[covariance]\nterms = [\"(intercept)\"]\nmatrix = [[1.0, 2.0]]\n"),
+        "covariance.matrix[0]",
+    );
+}
