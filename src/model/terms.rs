@@ -161,7 +161,7 @@ impl Term {
         }
         let factors = split_outside_quotes(text, ':')
             .iter()
-            .map(|f| parse_factor(f.trim()).map_err(|m| err(m)))
+            .map(|f| parse_factor(f.trim()).map_err(&err))
             .collect::<Result<Vec<_>, _>>()?;
         Ok(Term { factors })
     }
