@@ -1,5 +1,31 @@
 //! The projector: per-tree state arrays, one sub-step, the expected-value and Monte Carlo
 //! drivers, and streaming summaries.
+//!
+//! Entry point: [`run_scenario`] (or [`run_scenario_with_progress`]).
+
+mod binomial;
+mod drivers;
+pub mod evaluator;
+mod params;
+mod result;
+mod rng;
+mod stand;
+mod step;
+mod summary;
+
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+use rayon::prelude::*;
+
+pub use result::{
+    ClassRow, Driver, Metric, ProjectionResult, Settings, Summary, TreeRow, YearSummary,
+};
+pub use summary::{percentile_type7, summarise};
+
+use crate::scenario::Scenario;
+use drivers::{Engine, CLASS_WIDTH_CM};
+use stand::Stand;
+use summary::Trace;
 
 /// An error during a projection.
 #[derive(Debug, thiserror::Error)]
@@ -7,11 +33,167 @@ pub enum ProjectError {
     /// The projection cannot run with these inputs.
     #[error("{0}")]
     Invalid(String),
+    /// The worker threads could not be started.
+    #[error("cannot start {threads} worker threads: {message}")]
+    Threads {
+        /// Threads requested.
+        threads: usize,
+        /// What the system said.
+        message: String,
+    },
 }
 
 impl ProjectError {
     /// True for failures of the computation itself (exit code 1).
     pub fn is_runtime(&self) -> bool {
-        false
+        matches!(self, ProjectError::Threads { .. })
     }
+}
+
+/// Run-time choices that override or complement the scenario file.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct RunOptions {
+    /// Run the expected-value driver instead of Monte Carlo.
+    pub expected: bool,
+    /// Replicates (overrides the scenario).
+    pub replicates: Option<usize>,
+    /// Seed (overrides the scenario).
+    pub seed: Option<u64>,
+    /// Worker threads (default: all cores). Results do not depend on it.
+    pub threads: Option<usize>,
+}
+
+/// Project a scenario.
+///
+/// # Errors
+/// [`ProjectError::Invalid`] for zero replicates or threads; [`ProjectError::Threads`] when
+/// the thread pool cannot start.
+pub fn run_scenario(s: &Scenario, o: &RunOptions) -> Result<ProjectionResult, crate::Error> {
+    run_scenario_with_progress(s, o, &|_| {})
+}
+
+/// [`run_scenario`], calling `progress(done)` after each finished replicate (from worker
+/// threads, in any order).
+///
+/// # Errors
+/// As [`run_scenario`].
+pub fn run_scenario_with_progress(
+    s: &Scenario,
+    o: &RunOptions,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<ProjectionResult, crate::Error> {
+    let seed = o.seed.unwrap_or(s.seed);
+    let replicates = if o.expected {
+        1
+    } else {
+        o.replicates.unwrap_or(s.replicates)
+    };
+    if replicates == 0 {
+        return Err(ProjectError::Invalid("replicates must be at least 1".into()).into());
+    }
+    if o.threads == Some(0) {
+        return Err(ProjectError::Invalid("threads must be at least 1".into()).into());
+    }
+    let engine = Engine::new(s, seed);
+    let mut tree_rows = Vec::new();
+    let traces: Vec<Trace> = if o.expected {
+        let t = engine.run(&mut Stand::default(), None, Some(&mut tree_rows));
+        progress(1);
+        vec![t]
+    } else {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(o.threads.unwrap_or(0))
+            .build()
+            .map_err(|e| ProjectError::Threads {
+                threads: o.threads.unwrap_or(0),
+                message: e.to_string(),
+            })?;
+        let done = AtomicUsize::new(0);
+        pool.install(|| {
+            (0..replicates as u64)
+                .into_par_iter()
+                .map_init(Stand::default, |stand, r| {
+                    let t = engine.run(stand, Some(r), None);
+                    progress(done.fetch_add(1, Ordering::Relaxed) + 1);
+                    t
+                })
+                .collect()
+        })
+    };
+    let years: Vec<f64> = (0..=engine.steps)
+        .map(|k| k as f64 * s.step_years)
+        .collect();
+    let ages: Vec<Option<f64>> = years
+        .iter()
+        .map(|y| s.start_age_years.map(|a| a + y))
+        .collect();
+    let (summaries, classes) = summary::reduce(&traces, &years, &ages, CLASS_WIDTH_CM, !o.expected);
+    let warnings = warnings(s, &traces, &summaries);
+    let u = s.uncertainty;
+    Ok(ProjectionResult {
+        scenario: s.name.clone(),
+        stand: s.trees.stand.clone(),
+        driver: if o.expected {
+            Driver::Expected
+        } else {
+            Driver::MonteCarlo
+        },
+        seed,
+        settings: Settings {
+            replicates,
+            horizon_years: s.horizon_years,
+            step_years: s.step_years,
+            sub_step_years: s.sub_step_years,
+            process: u.process,
+            parameters: u.parameters,
+            growth_residual: u.growth_residual,
+            area_ha: s.area_ha,
+            start_age_years: s.start_age_years,
+            class_width_cm: CLASS_WIDTH_CM,
+        },
+        years: summaries,
+        classes,
+        trees: tree_rows,
+        inputs: s.inputs.clone(),
+        warnings,
+    })
+}
+
+fn warnings(s: &Scenario, traces: &[Trace], years: &[YearSummary]) -> Vec<String> {
+    let mut out = Vec::new();
+    let ranged = s
+        .survival_eval
+        .ranged
+        .iter()
+        .map(|r| ("survival", &s.survival.path, r))
+        .chain(
+            s.growth_eval
+                .ranged
+                .iter()
+                .map(|r| ("growth", &s.growth.path, r)),
+        );
+    for (i, (kind, path, (var, _, _, [lo, hi]))) in ranged.enumerate() {
+        let seen = traces
+            .iter()
+            .fold([f64::INFINITY, f64::NEG_INFINITY], |a, t| {
+                [a[0].min(t.ranges[i][0]), a[1].max(t.ranges[i][1])]
+            });
+        if seen[0] < *lo || seen[1] > *hi {
+            out.push(format!(
+                "the {kind} model {} is extrapolated: `{var}` ranges over [{:.4}, {:.4}] in this projection, outside its fitting range [{lo}, {hi}]",
+                path.display(),
+                seen[0],
+                seen[1]
+            ));
+        }
+    }
+    if let Some(y) = years.iter().find(|y| y.extinct_replicates > 0) {
+        out.push(format!(
+            "{} of {} replicates have no stems left by year {} (QMD is summarised over the others)",
+            y.extinct_replicates,
+            traces.len(),
+            y.year
+        ));
+    }
+    out
 }

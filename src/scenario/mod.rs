@@ -1,7 +1,18 @@
-//! Projection scenarios (TOML): schema, validation, paths relative to the scenario file,
-//! cohort generation.
+//! Projection scenarios (TOML, design §5): schema, validation, paths relative to the scenario
+//! file, cohort generation and the tree-list reader.
 
-/// An error in a scenario file. Names the file and the key path.
+mod cohort;
+mod load;
+pub mod schema;
+mod trees;
+
+pub use cohort::quantile_diameters;
+pub use load::{InputFile, LoadedModel, Scenario, Uncertainty};
+pub use schema::DbhDistribution;
+pub use trees::{read_tree_list, Attribute, AttributeValues, TreeList};
+
+/// An error in a scenario file or in the inputs it names. Every variant names the file, and
+/// the key path or the line and column.
 #[derive(Debug, thiserror::Error)]
 pub enum ScenarioError {
     /// A key with a bad or missing value.
@@ -11,6 +22,26 @@ pub enum ScenarioError {
         file: String,
         /// The TOML key path.
         key: String,
+        /// What is wrong.
+        message: String,
+    },
+    /// A bad cell of a tree list.
+    #[error("{file}: line {line}, column \"{column}\": {message}")]
+    Cell {
+        /// The tree-list file.
+        file: String,
+        /// 1-based line (the header is line 1).
+        line: u64,
+        /// The column.
+        column: String,
+        /// What is wrong, quoting the value.
+        message: String,
+    },
+    /// A tree list that cannot be used as a whole.
+    #[error("{file}: {message}")]
+    TreeFile {
+        /// The tree-list file.
+        file: String,
         /// What is wrong.
         message: String,
     },

@@ -1,0 +1,182 @@
+//! The two drivers sharing the sub-step: the expected-value trajectory and Monte Carlo
+//! replicates. One [`Engine`] holds everything prepared once per run.
+
+use super::evaluator::attribute_tables;
+use super::params::CovarianceFactor;
+use super::result::TreeRow;
+use super::rng::{self, Purpose};
+use super::stand::{Initial, Stand};
+use super::step::{observe_ranges, sub_step, GrowthRule, Mortality, StepContext, SurvivalRule};
+use super::summary::Trace;
+use crate::scenario::Scenario;
+
+/// Width of the DBH classes of `classes.csv`, cm.
+pub(crate) const CLASS_WIDTH_CM: f64 = 5.0;
+
+/// Per-run preparation shared by all replicates.
+pub(crate) struct Engine<'a> {
+    pub s: &'a Scenario,
+    seed: u64,
+    init: Initial,
+    numeric: Vec<Vec<f64>>,
+    codes: Vec<Vec<u32>>,
+    survival_rule: SurvivalRule,
+    growth_rule: GrowthRule,
+    survival_beta: Vec<f64>,
+    growth_beta: Vec<f64>,
+    /// Covariance factors, when parameter uncertainty is on.
+    factors: Option<(CovarianceFactor, CovarianceFactor)>,
+    pub sub_steps_per_step: u64,
+    pub steps: usize,
+}
+
+impl<'a> Engine<'a> {
+    pub fn new(s: &'a Scenario, seed: u64) -> Engine<'a> {
+        let (numeric, codes) = attribute_tables(&s.trees);
+        let factor = |c: &crate::model::stored::ModelCommon| {
+            c.covariance
+                .as_ref()
+                .map(|v| CovarianceFactor::new(&v.matrix))
+        };
+        let factors = if s.uncertainty.parameters {
+            factor(&s.survival.model.common).zip(factor(&s.growth.model.common))
+        } else {
+            None
+        };
+        Engine {
+            s,
+            seed,
+            init: Initial::of(&s.trees),
+            numeric,
+            codes,
+            survival_rule: SurvivalRule::of(s),
+            growth_rule: GrowthRule::of(s),
+            survival_beta: s.survival.model.common.predictor.coefficients(),
+            growth_beta: s.growth.model.common.predictor.coefficients(),
+            factors,
+            sub_steps_per_step: (s.step_years / s.sub_step_years).round() as u64,
+            steps: (s.horizon_years / s.step_years).round() as usize,
+        }
+    }
+
+    /// Number of ranged variables tracked per trace.
+    fn n_ranged(&self) -> usize {
+        self.s.survival_eval.ranged.len() + self.s.growth_eval.ranged.len()
+    }
+
+    /// Run one replicate (`Some(r)`, Monte Carlo) or the expected trajectory (`None`),
+    /// appending tree rows to `trees` when given.
+    pub fn run(
+        &self,
+        stand: &mut Stand,
+        replicate: Option<u64>,
+        mut trees: Option<&mut Vec<TreeRow>>,
+    ) -> Trace {
+        let s = self.s;
+        let u = s.uncertainty;
+        let stand_key = 0;
+        let (survival_coefs, growth_coefs) = match (replicate, &self.factors) {
+            (Some(r), Some((fs, fg))) => {
+                let stream = rng::stream(self.seed, Purpose::Parameters, stand_key, r);
+                (
+                    fs.draw(&self.survival_beta, stream, 0),
+                    fg.draw(&self.growth_beta, stream, 1),
+                )
+            }
+            _ => (self.survival_beta.clone(), self.growth_beta.clone()),
+        };
+        let mortality = match replicate {
+            Some(r) if u.process => {
+                let stream = rng::stream(self.seed, Purpose::Survival, stand_key, r);
+                match s.area_ha {
+                    Some(a) => Mortality::Binomial(stream, a),
+                    None => Mortality::Bernoulli(stream),
+                }
+            }
+            _ => Mortality::Expected,
+        };
+        let residuals = replicate
+            .filter(|_| u.growth_residual)
+            .map(|r| rng::stream(self.seed, Purpose::GrowthResidual, stand_key, r));
+        let ctx = StepContext {
+            survival: &s.survival_eval,
+            growth: &s.growth_eval,
+            survival_rule: self.survival_rule,
+            growth_rule: self.growth_rule,
+            survival_coefs: &survival_coefs,
+            growth_coefs: &growth_coefs,
+            numeric: &self.numeric,
+            codes: &self.codes,
+            mortality,
+            residuals,
+        };
+        stand.reset(&self.init);
+        let mut trace = Trace {
+            values: Vec::with_capacity(self.steps + 1),
+            classes: Vec::with_capacity(self.steps + 1),
+            ranges: vec![[f64::INFINITY, f64::NEG_INFINITY]; self.n_ranged()],
+        };
+        let n_surv = s.survival_eval.ranged.len();
+        let track = self.n_ranged() > 0;
+        let mut cumulative = 1.0;
+        self.snapshot(stand, cumulative, 0.0, &mut trace, trees.as_deref_mut());
+        let mut k = 0;
+        for step in 1..=self.steps {
+            for _ in 0..self.sub_steps_per_step {
+                let (sr, gr) = trace.ranges.split_at_mut(n_surv);
+                let mut observe = |st: &Stand, t: &super::stand::Totals| {
+                    if track {
+                        observe_ranges(&s.survival_eval, st, t, &self.numeric, sr);
+                        observe_ranges(&s.growth_eval, st, t, &self.numeric, gr);
+                    }
+                };
+                let r = sub_step(stand, &ctx, k, &mut observe);
+                if r.start > 0.0 {
+                    cumulative *= r.survived / r.start;
+                }
+                k += 1;
+            }
+            let year = step as f64 * s.step_years;
+            self.snapshot(stand, cumulative, year, &mut trace, trees.as_deref_mut());
+        }
+        trace
+    }
+
+    fn snapshot(
+        &self,
+        stand: &Stand,
+        cumulative: f64,
+        year: f64,
+        trace: &mut Trace,
+        trees: Option<&mut Vec<TreeRow>>,
+    ) {
+        let t = stand.totals();
+        trace
+            .values
+            .push([t.stems, cumulative, t.ba, t.qmd, t.sdi(), 0.0, 0.0]);
+        let mut classes = Vec::new();
+        for (&d, &e) in stand.dbh.iter().zip(&stand.stems) {
+            let c = (d / CLASS_WIDTH_CM).floor() as usize;
+            if classes.len() <= c {
+                classes.resize(c + 1, 0.0);
+            }
+            classes[c] += e;
+        }
+        trace.classes.push(classes);
+        if let Some(rows) = trees {
+            let mut order: Vec<usize> = (0..stand.len()).collect();
+            order.sort_by_key(|&i| stand.tree[i]);
+            let list = &self.s.trees;
+            rows.extend(order.into_iter().map(|i| {
+                let r = stand.tree[i] as usize;
+                TreeRow {
+                    tree: list.tree_ids[r].clone(),
+                    year,
+                    dbh_cm: stand.dbh[i],
+                    cumulative_survival: stand.stems[i] / list.stems_per_ha[r],
+                    stems_per_ha: stand.stems[i],
+                }
+            }));
+        }
+    }
+}

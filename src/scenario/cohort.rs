@@ -1,0 +1,121 @@
+//! Generated cohorts: `records` trees with diameters at the quantiles of a DBH distribution.
+
+use statrs::distribution::{ContinuousCDF, LogNormal, Normal, Uniform, Weibull};
+
+use super::schema::DbhDistribution;
+use super::trees::TreeList;
+
+/// Diameters at the quantiles `(i − ½)/n`, i = 1..n, of `dist`, in increasing order.
+///
+/// # Formula
+/// `dbh_i = F⁻¹((i − ½)/n)`.
+///
+/// # Errors
+/// A message when the parameters are invalid or a quantile is not a positive diameter.
+pub fn quantile_diameters(dist: &DbhDistribution, n: usize) -> Result<Vec<f64>, String> {
+    let positive = |name: &str, x: f64| {
+        if x > 0.0 && x.is_finite() {
+            Ok(())
+        } else {
+            Err(format!("`{name}` = {x} must be a positive number"))
+        }
+    };
+    let q: Box<dyn Fn(f64) -> f64> = match *dist {
+        DbhDistribution::Lognormal { median, gsd } => {
+            positive("median", median)?;
+            if !(gsd > 1.0 && gsd.is_finite()) {
+                return Err(format!("`gsd` = {gsd} must be greater than 1"));
+            }
+            let d = LogNormal::new(median.ln(), gsd.ln()).map_err(|e| e.to_string())?;
+            Box::new(move |p| d.inverse_cdf(p))
+        }
+        DbhDistribution::Normal { mean, sd } => {
+            positive("sd", sd)?;
+            let d = Normal::new(mean, sd).map_err(|e| e.to_string())?;
+            Box::new(move |p| d.inverse_cdf(p))
+        }
+        DbhDistribution::Weibull {
+            shape,
+            scale,
+            location,
+        } => {
+            positive("shape", shape)?;
+            positive("scale", scale)?;
+            if !(location >= 0.0 && location.is_finite()) {
+                return Err(format!("`location` = {location} must be zero or positive"));
+            }
+            let d = Weibull::new(shape, scale).map_err(|e| e.to_string())?;
+            Box::new(move |p| location + d.inverse_cdf(p))
+        }
+        DbhDistribution::Uniform { min, max } => {
+            if !(min.is_finite() && max.is_finite() && max > min) {
+                return Err(format!("needs min < max (min = {min}, max = {max})"));
+            }
+            let d = Uniform::new(min, max).map_err(|e| e.to_string())?;
+            Box::new(move |p| d.inverse_cdf(p))
+        }
+        DbhDistribution::Fixed { value } => {
+            positive("value", value)?;
+            Box::new(move |_| value)
+        }
+    };
+    let dbh: Vec<f64> = (1..=n).map(|i| q((i as f64 - 0.5) / n as f64)).collect();
+    if let Some((i, d)) = dbh
+        .iter()
+        .enumerate()
+        .find(|(_, d)| !(**d > 0.0 && d.is_finite()))
+    {
+        return Err(format!(
+            "the quantile {}/{} of this distribution is a DBH of {d:.4} cm, not positive; choose parameters with (almost) no mass at or below zero",
+            2 * i + 1,
+            2 * n
+        ));
+    }
+    Ok(dbh)
+}
+
+/// A cohort of `n` records sharing `stems_per_ha` equally, tree ids `1..=n` in DBH order.
+pub(crate) fn cohort(dbh_cm: Vec<f64>, stems_per_ha: f64) -> TreeList {
+    let n = dbh_cm.len();
+    TreeList {
+        stand: "1".into(),
+        tree_ids: (1..=n).map(|i| i.to_string()).collect(),
+        dbh_cm,
+        stems_per_ha: vec![stems_per_ha / n as f64; n],
+        attributes: Vec::new(),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn lognormal_quantiles_are_symmetric_on_the_log_scale() {
+        // Derived analytically: the quantiles (i − ½)/n are symmetric about ½, so the middle
+        // record of an odd count sits at the median and outer pairs multiply to median².
+        let d = quantile_diameters(
+            &DbhDistribution::Lognormal {
+                median: 8.0,
+                gsd: 1.5,
+            },
+            5,
+        )
+        .unwrap();
+        assert!((d[2] - 8.0).abs() < 1e-9);
+        assert!((d[0] * d[4] - 64.0).abs() < 1e-7);
+    }
+
+    #[test]
+    fn refuses_non_positive_diameters() {
+        let e = quantile_diameters(&DbhDistribution::Normal { mean: 2.0, sd: 3.0 }, 10);
+        assert!(e.unwrap_err().contains("not positive"));
+    }
+
+    #[test]
+    fn uniform_quantiles_are_midpoints() {
+        // Derived analytically: F⁻¹(p) = min + p (max − min).
+        let d = quantile_diameters(&DbhDistribution::Uniform { min: 0.0, max: 4.0 }, 4).unwrap();
+        assert_eq!(d, vec![0.5, 1.5, 2.5, 3.5]);
+    }
+}

@@ -1,0 +1,410 @@
+//! The validated scenario: reading the TOML, resolving paths, reading and checking the models
+//! against the trees, generating the cohort. A [`Scenario`] that exists can be projected.
+
+use std::path::{Path, PathBuf};
+
+use sha2::{Digest, Sha256};
+
+use super::schema::{key_path_at, ScenarioFile, UncertaintySection};
+use super::trees::{read_tree_list, Constant, TreeList};
+use super::{cohort, ScenarioError};
+use crate::model::file::{GrowthResponse, ModelFile};
+use crate::model::stored::{GrowthModel, Model, ModelCommon, SurvivalModel};
+use crate::project::evaluator::{CompileError, CompiledPredictor};
+use crate::tolerance::WHOLE_STEMS_ATOL;
+
+/// Which sources of uncertainty the Monte Carlo driver draws.
+pub type Uncertainty = UncertaintySection;
+
+/// An input file and its SHA-256, for `run.json`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct InputFile {
+    /// What the file is (`scenario`, `survival model`, `growth model`, `trees`).
+    pub role: String,
+    /// The path as resolved.
+    pub path: PathBuf,
+    /// Lower-case hex SHA-256 of the bytes read.
+    pub sha256: String,
+}
+
+/// A model with the path it came from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadedModel<M> {
+    /// The model file.
+    pub path: PathBuf,
+    /// The validated model.
+    pub model: M,
+    /// Its period in years.
+    pub period_years: f64,
+}
+
+/// A validated scenario.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scenario {
+    /// The scenario file (for messages).
+    pub file: String,
+    /// Scenario name.
+    pub name: String,
+    /// Projection length (years), a whole multiple of `step_years`.
+    pub horizon_years: f64,
+    /// Output interval (years), a whole multiple of every model period.
+    pub step_years: f64,
+    /// Engine sub-step: the shortest model period.
+    pub sub_step_years: f64,
+    /// Monte Carlo replicates (≥ 1).
+    pub replicates: usize,
+    /// Seed of the random draws.
+    pub seed: u64,
+    /// Stand age at year 0, if given.
+    pub start_age_years: Option<f64>,
+    /// The survival model.
+    pub survival: LoadedModel<SurvivalModel>,
+    /// The growth model.
+    pub growth: LoadedModel<GrowthModel>,
+    /// Sources of uncertainty.
+    pub uncertainty: Uncertainty,
+    /// The trees at year 0.
+    pub trees: TreeList,
+    /// Stand area for binomial survival of whole stems.
+    pub area_ha: Option<f64>,
+    /// Input files and their hashes.
+    pub inputs: Vec<InputFile>,
+    pub(crate) survival_eval: CompiledPredictor,
+    pub(crate) growth_eval: CompiledPredictor,
+}
+
+fn sha256_hex(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+impl Scenario {
+    /// Read and validate a scenario file; model and tree-list paths are relative to it.
+    ///
+    /// # Errors
+    /// [`ScenarioError`] naming the file and key for anything invalid, including models that
+    /// cannot be projected or evaluated on the trees.
+    pub fn read(path: &Path) -> Result<Scenario, crate::Error> {
+        let shown = path.display().to_string();
+        let bytes = std::fs::read(path).map_err(|e| ScenarioError::Key {
+            file: shown.clone(),
+            key: "file".into(),
+            message: format!("cannot be read: {e}"),
+        })?;
+        let text = String::from_utf8(bytes.clone()).map_err(|_| ScenarioError::Key {
+            file: shown.clone(),
+            key: "file".into(),
+            message: "is not UTF-8 text".into(),
+        })?;
+        let base = path.parent().unwrap_or(Path::new("."));
+        let mut s = Scenario::parse(&text, &shown, base)?;
+        s.inputs.insert(
+            0,
+            InputFile {
+                role: "scenario".into(),
+                path: path.to_path_buf(),
+                sha256: sha256_hex(&bytes),
+            },
+        );
+        Ok(s)
+    }
+
+    /// Validate scenario text; `file` names it in messages and `base` resolves relative paths.
+    ///
+    /// # Errors
+    /// As [`Scenario::read`].
+    pub fn parse(text: &str, file: &str, base: &Path) -> Result<Scenario, crate::Error> {
+        let err = |key: &str, message: String| ScenarioError::Key {
+            file: file.to_string(),
+            key: key.to_string(),
+            message,
+        };
+        let raw: ScenarioFile = toml::from_str(text).map_err(|e| {
+            let key = e
+                .span()
+                .map_or("file".to_string(), |s| key_path_at(text, s.start));
+            err(&key, e.message().trim().to_string())
+        })?;
+        let whole = |key: &str, x: f64| -> Result<(), ScenarioError> {
+            if x > 0.0 && x.is_finite() {
+                Ok(())
+            } else {
+                Err(err(key, format!("{x} is not a positive number of years")))
+            }
+        };
+        whole("horizon_years", raw.horizon_years)?;
+        whole("step_years", raw.step_years)?;
+        if !is_multiple(raw.horizon_years, raw.step_years) {
+            return Err(err(
+                "horizon_years",
+                format!(
+                    "{} is not a whole multiple of step_years = {}",
+                    raw.horizon_years, raw.step_years
+                ),
+            )
+            .into());
+        }
+        let replicates = match raw.replicates {
+            None => 1000,
+            Some(r) if r >= 1 => r as usize,
+            Some(r) => {
+                return Err(err("replicates", format!("{r} is not a positive whole number")).into())
+            }
+        };
+        let mut inputs = Vec::new();
+        let mut read_model =
+            |key: &str, rel: &str, role: &str| -> Result<(PathBuf, Model), crate::Error> {
+                let path = base.join(rel);
+                let bytes = std::fs::read(&path).map_err(|e| {
+                    err(
+                        key,
+                        format!("model file {} cannot be read: {e}", path.display()),
+                    )
+                })?;
+                let shown = path.display().to_string();
+                let text = String::from_utf8_lossy(&bytes);
+                let model = Model::from_file(ModelFile::parse(&text, &shown)?, &shown)?;
+                inputs.push(InputFile {
+                    role: role.into(),
+                    path: path.clone(),
+                    sha256: sha256_hex(&bytes),
+                });
+                Ok((path, model))
+            };
+        let (spath, smodel) =
+            read_model("models.survival", &raw.models.survival, "survival model")?;
+        let (gpath, gmodel) = read_model("models.growth", &raw.models.growth, "growth model")?;
+        let survival = match smodel {
+            Model::Survival(m) => m,
+            Model::Growth(_) => {
+                return Err(err(
+                    "models.survival",
+                    format!("{} is a growth model", spath.display()),
+                )
+                .into())
+            }
+        };
+        let growth = match gmodel {
+            Model::Growth(m) => m,
+            Model::Survival(_) => {
+                return Err(err(
+                    "models.growth",
+                    format!("{} is a survival model", gpath.display()),
+                )
+                .into())
+            }
+        };
+        if growth.response == GrowthResponse::Column {
+            return Err(err("models.growth", format!("{} has response = \"column\" (a column regressed as it is), which cannot be projected; fit with --response ln_bai or annual_increment", gpath.display())).into());
+        }
+        let period = |key: &str, path: &Path, c: &ModelCommon| {
+            c.period_years.ok_or_else(|| err(key, format!("{} has no period_years (the fit had no interval), so it cannot be projected; refit with --years or --years-col", path.display())))
+        };
+        let sp = period("models.survival", &spath, &survival.common)?;
+        let gp = period("models.growth", &gpath, &growth.common)?;
+        let sub_step_years = sp.min(gp);
+        for (key, p) in [("models.survival", sp), ("models.growth", gp)] {
+            if !is_multiple(raw.step_years, p) {
+                return Err(err(
+                    "step_years",
+                    format!(
+                        "{} is not a whole multiple of the {p}-year period of {key}",
+                        raw.step_years
+                    ),
+                )
+                .into());
+            }
+            if !is_multiple(p, sub_step_years) {
+                return Err(err(key, format!("its {p}-year period is not a whole multiple of the shortest model period ({sub_step_years} years)")).into());
+            }
+        }
+        let uncertainty = raw.uncertainty;
+        if uncertainty.parameters {
+            for (key, path, c) in [
+                ("models.survival", &spath, &survival.common),
+                ("models.growth", &gpath, &growth.common),
+            ] {
+                if c.covariance.is_none() {
+                    return Err(err(
+                        "uncertainty.parameters",
+                        format!(
+                            "is true, but {} ({key}) has no [covariance]",
+                            path.display()
+                        ),
+                    )
+                    .into());
+                }
+            }
+        }
+        let mut trees = trees_of(&raw, base, file, &mut inputs)?;
+        for (name, value) in &raw.cohort.attributes {
+            let key = format!("cohort.attributes.{name}");
+            if matches!(name.as_str(), "dbh" | "stand" | "tree" | "expansion")
+                || crate::model::terms::DERIVED.contains(&name.as_str())
+            {
+                return Err(err(&key, format!("`{name}` is a reserved name")).into());
+            }
+            if trees.attribute(name).is_some() {
+                return Err(
+                    err(&key, format!("`{name}` is also a column of the tree list")).into(),
+                );
+            }
+            let c = match value {
+                toml::Value::String(s) => Constant::Level(s.clone()),
+                toml::Value::Integer(i) => Constant::Number(*i as f64),
+                toml::Value::Float(x) if x.is_finite() => Constant::Number(*x),
+                other => {
+                    return Err(err(
+                        &key,
+                        format!("{other} is neither a level (text) nor a number"),
+                    )
+                    .into())
+                }
+            };
+            trees.set_constant(name, c);
+        }
+        if let Some(area) = raw.cohort.area_ha {
+            if !(area > 0.0 && area.is_finite()) {
+                return Err(err("cohort.area_ha", format!("{area} is not a positive area")).into());
+            }
+            for (i, e) in trees.stems_per_ha.iter().enumerate() {
+                let n = e * area;
+                if (n - n.round()).abs() > WHOLE_STEMS_ATOL || n.round() < 1.0 {
+                    return Err(err("cohort.area_ha", format!("tree {} represents {e} stems/ha × {area} ha = {n} stems, not a whole number", trees.tree_ids[i])).into());
+                }
+            }
+        }
+        let compile = |key: &str, path: &Path, c: &ModelCommon| {
+            CompiledPredictor::compile(
+                &c.predictor,
+                &c.categorical,
+                c.units,
+                c.fit.as_ref().map(|f| &f.ranges),
+                &trees,
+            )
+            .map_err(|e| {
+                let key = match &e {
+                    CompileError::UnknownLevel { var, .. }
+                        if raw.cohort.attributes.contains_key(var) =>
+                    {
+                        format!("cohort.attributes.{var}")
+                    }
+                    CompileError::UnknownLevel { .. } => "cohort.trees".to_string(),
+                    _ => key.to_string(),
+                };
+                err(&key, format!("{} ({}): {e}", path.display(), key_model(&e)))
+            })
+        };
+        let survival_eval = compile("models.survival", &spath, &survival.common)?;
+        let growth_eval = compile("models.growth", &gpath, &growth.common)?;
+        Ok(Scenario {
+            file: file.to_string(),
+            name: raw.name,
+            horizon_years: raw.horizon_years,
+            step_years: raw.step_years,
+            sub_step_years,
+            replicates,
+            seed: raw.seed.unwrap_or(1),
+            start_age_years: raw.start_age_years,
+            survival: LoadedModel {
+                path: spath,
+                model: survival,
+                period_years: sp,
+            },
+            growth: LoadedModel {
+                path: gpath,
+                model: growth,
+                period_years: gp,
+            },
+            uncertainty,
+            trees,
+            area_ha: raw.cohort.area_ha,
+            inputs,
+            survival_eval,
+            growth_eval,
+        })
+    }
+
+    /// True when some model term reads a stand-level covariate (so the Monte Carlo mean and
+    /// the expected trajectory differ in general).
+    pub fn depends_on_stand(&self) -> bool {
+        self.survival_eval.depends_on_stand() || self.growth_eval.depends_on_stand()
+    }
+}
+
+fn key_model(e: &CompileError) -> &'static str {
+    match e {
+        CompileError::UnknownLevel { .. } => "levels",
+        _ => "terms",
+    }
+}
+
+/// `a` is a whole multiple of `b` (relative tolerance 1e-9).
+fn is_multiple(a: f64, b: f64) -> bool {
+    let k = (a / b).round();
+    k >= 1.0 && (a - k * b).abs() <= 1e-9 * a.abs().max(b.abs())
+}
+
+fn trees_of(
+    raw: &ScenarioFile,
+    base: &Path,
+    file: &str,
+    inputs: &mut Vec<InputFile>,
+) -> Result<TreeList, ScenarioError> {
+    let err = |key: &str, message: String| ScenarioError::Key {
+        file: file.to_string(),
+        key: key.to_string(),
+        message,
+    };
+    let c = &raw.cohort;
+    if let Some(rel) = &c.trees {
+        for (key, present) in [
+            ("stems_per_ha", c.stems_per_ha.is_some()),
+            ("records", c.records.is_some()),
+            ("dbh", c.dbh.is_some()),
+        ] {
+            if present {
+                return Err(err(
+                    &format!("cohort.{key}"),
+                    "belongs to a generated cohort; with `trees` the tree list gives the trees"
+                        .into(),
+                ));
+            }
+        }
+        let path = base.join(rel);
+        let shown = path.display().to_string();
+        let bytes = std::fs::read(&path)
+            .map_err(|e| err("cohort.trees", format!("{shown} cannot be read: {e}")))?;
+        let list = read_tree_list(&path, &shown)?;
+        inputs.push(InputFile {
+            role: "trees".into(),
+            path,
+            sha256: sha256_hex(&bytes),
+        });
+        return Ok(list);
+    }
+    let stems = c
+        .stems_per_ha
+        .ok_or_else(|| err("cohort.stems_per_ha", "missing (or give `trees`)".into()))?;
+    if !(stems > 0.0 && stems.is_finite()) {
+        return Err(err(
+            "cohort.stems_per_ha",
+            format!("{stems} is not a positive number"),
+        ));
+    }
+    let records = match c.records {
+        None => return Err(err("cohort.records", "missing".into())),
+        Some(r) if r >= 1 && r <= u32::MAX as i64 => r as usize,
+        Some(r) => {
+            return Err(err(
+                "cohort.records",
+                format!("{r} is not a positive whole number"),
+            ))
+        }
+    };
+    let dist = c.dbh.as_ref().ok_or_else(|| err("cohort.dbh", "missing (a distribution such as { distribution = \"lognormal\", median = 8, gsd = 1.5 })".into()))?;
+    let dbh = cohort::quantile_diameters(dist, records).map_err(|m| err("cohort.dbh", m))?;
+    Ok(cohort::cohort(dbh, stems))
+}
