@@ -154,13 +154,24 @@ impl<'a> Engine<'a> {
         trace
             .values
             .push([t.stems, cumulative, t.ba, t.qmd, t.sdi(), 0.0, 0.0]);
-        let mut classes = Vec::new();
+        // Truncation is the floor for positive diameters. Records are in descending DBH
+        // order, so the first has the largest class and each class is one run.
+        let class_of = |d: f64| (d * (1.0 / CLASS_WIDTH_CM)) as usize;
+        let mut classes = vec![0.0; stand.dbh.first().map_or(0, |&d| class_of(d) + 1)];
+        let (mut current, mut run) = (usize::MAX, 0.0);
         for (&d, &e) in stand.dbh.iter().zip(&stand.stems) {
-            let c = (d / CLASS_WIDTH_CM).floor() as usize;
-            if classes.len() <= c {
-                classes.resize(c + 1, 0.0);
+            let c = class_of(d);
+            if c != current {
+                if current != usize::MAX {
+                    classes[current] += run;
+                }
+                current = c;
+                run = 0.0;
             }
-            classes[c] += e;
+            run += e;
+        }
+        if current != usize::MAX {
+            classes[current] += run;
         }
         trace.classes.push(classes);
         if let Some(rows) = trees {

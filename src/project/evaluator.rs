@@ -255,12 +255,42 @@ impl CompiledPredictor {
         eta.fill(constant);
         for term in self.terms.iter().filter(|t| !t.stand_only) {
             let coef = coefs[term.coef];
-            tmp.fill(coef);
-            for f in &term.factors {
-                apply_factor(f, cov, tmp);
+            match term.factors.as_slice() {
+                [only] => apply_factor(only, cov, eta, Combine::Add(coef)),
+                factors => {
+                    tmp.fill(coef);
+                    for f in factors {
+                        apply_factor(f, cov, tmp, Combine::Multiply);
+                    }
+                    for (e, t) in eta.iter_mut().zip(tmp.iter()) {
+                        *e += t;
+                    }
+                }
             }
-            for (e, t) in eta.iter_mut().zip(tmp.iter()) {
-                *e += t;
+        }
+    }
+}
+
+/// How a factor's values enter the output array.
+#[derive(Debug, Clone, Copy)]
+enum Combine {
+    /// `out[i] *= v_i` (building a product term in scratch).
+    Multiply,
+    /// `out[i] += c · v_i` (a single-factor term straight into η).
+    Add(f64),
+}
+
+#[inline(always)]
+fn each(out: &mut [f64], xs: &[f64], how: Combine, f: impl Fn(f64) -> f64) {
+    match how {
+        Combine::Multiply => {
+            for (t, &x) in out.iter_mut().zip(xs) {
+                *t *= f(x);
+            }
+        }
+        Combine::Add(c) => {
+            for (t, &x) in out.iter_mut().zip(xs) {
+                *t += c * f(x);
             }
         }
     }
@@ -275,32 +305,39 @@ fn stand_value(source: Source, cov: &Covariates) -> f64 {
     }
 }
 
-/// `tmp[i] *= transform(scale · x_i)`, specialised per source and transform so that the
-/// common cases compile to straight loops.
-fn apply_factor(f: &CompiledFactor, cov: &Covariates, tmp: &mut [f64]) {
+/// Combine `transform(scale · x_i)` into `out`, specialised per source and transform so that
+/// the common cases compile to straight loops.
+fn apply_factor(f: &CompiledFactor, cov: &Covariates, out: &mut [f64], how: Combine) {
     let s = f.scale;
     match f.source {
-        Source::Dbh => by_transform(f.transform, tmp, cov.dbh, s),
-        Source::Bal => by_transform(f.transform, tmp, cov.bal, s),
-        Source::RelDbh => {
-            let k = s / cov.qmd;
-            by_transform(f.transform, tmp, cov.dbh, k)
-        }
+        Source::Dbh => by_transform(f.transform, out, cov.dbh, s, how),
+        Source::Bal => by_transform(f.transform, out, cov.bal, s, how),
+        Source::RelDbh => by_transform(f.transform, out, cov.dbh, s / cov.qmd, how),
         Source::Ba | Source::Qmd | Source::Stems => {
             let v = f.transform.apply(s * stand_value(f.source, cov));
-            tmp.iter_mut().for_each(|t| *t *= v);
+            match how {
+                Combine::Multiply => out.iter_mut().for_each(|t| *t *= v),
+                Combine::Add(c) => out.iter_mut().for_each(|t| *t += c * v),
+            }
         }
         Source::Numeric(k) => {
             let col = &cov.numeric[k];
-            for (t, &r) in tmp.iter_mut().zip(cov.tree) {
-                *t *= f.transform.apply(s * col[r as usize]);
+            for (t, &r) in out.iter_mut().zip(cov.tree) {
+                let v = f.transform.apply(s * col[r as usize]);
+                match how {
+                    Combine::Multiply => *t *= v,
+                    Combine::Add(c) => *t += c * v,
+                }
             }
         }
         Source::Indicator(k, code) => {
             let col = &cov.codes[k];
-            for (t, &r) in tmp.iter_mut().zip(cov.tree) {
-                if Some(col[r as usize]) != code {
-                    *t = 0.0;
+            for (t, &r) in out.iter_mut().zip(cov.tree) {
+                let hit = Some(col[r as usize]) == code;
+                match how {
+                    Combine::Multiply if !hit => *t = 0.0,
+                    Combine::Add(c) if hit => *t += c,
+                    _ => {}
                 }
             }
         }
@@ -308,20 +345,13 @@ fn apply_factor(f: &CompiledFactor, cov: &Covariates, tmp: &mut [f64]) {
 }
 
 #[inline]
-fn by_transform(tr: Transform, tmp: &mut [f64], xs: &[f64], s: f64) {
+fn by_transform(tr: Transform, out: &mut [f64], xs: &[f64], s: f64, how: Combine) {
     match tr {
-        Transform::Identity => mul_each(tmp, xs, |x| s * x),
-        Transform::Power(2) => mul_each(tmp, xs, |x| (s * x) * (s * x)),
-        Transform::Ln => mul_each(tmp, xs, |x| (s * x).ln()),
-        Transform::Sqrt => mul_each(tmp, xs, |x| (s * x).sqrt()),
-        other => mul_each(tmp, xs, |x| other.apply(s * x)),
-    }
-}
-
-#[inline]
-fn mul_each(tmp: &mut [f64], xs: &[f64], f: impl Fn(f64) -> f64) {
-    for (t, &x) in tmp.iter_mut().zip(xs) {
-        *t *= f(x);
+        Transform::Identity => each(out, xs, how, |x| s * x),
+        Transform::Power(2) => each(out, xs, how, |x| (s * x) * (s * x)),
+        Transform::Ln => each(out, xs, how, |x| (s * x).ln()),
+        Transform::Sqrt => each(out, xs, how, |x| (s * x).sqrt()),
+        other => each(out, xs, how, |x| other.apply(s * x)),
     }
 }
 

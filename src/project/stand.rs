@@ -1,5 +1,5 @@
 //! The live trees of one stand during a projection, as parallel arrays kept in descending
-//! DBH order (ties by record index) so that basal area in larger trees is one prefix sum.
+//! DBH order so that basal area in larger trees is one prefix sum.
 
 use crate::scenario::TreeList;
 
@@ -28,8 +28,8 @@ impl Totals {
     }
 }
 
-/// The live records of one stand, in descending DBH order, plus scratch arrays of the same
-/// length. Nothing here allocates after [`Stand::reset`] has sized the vectors once.
+/// The live records of one stand, in descending DBH order (equal diameters in a deterministic
+/// order that depends only on the history of the replicate), plus scratch arrays. Nothing here allocates after [`Stand::reset`] has sized the vectors once.
 #[derive(Debug, Clone, Default)]
 pub(crate) struct Stand {
     pub dbh: Vec<f64>,
@@ -39,6 +39,12 @@ pub(crate) struct Stand {
     pub bal: Vec<f64>,
     pub eta: Vec<f64>,
     pub tmp: Vec<f64>,
+    /// Scratch of the counting sort.
+    counts: Vec<u32>,
+    key: Vec<u32>,
+    spare_dbh: Vec<f64>,
+    spare_stems: Vec<f64>,
+    spare_tree: Vec<u32>,
 }
 
 /// The year-0 trees in descending DBH order, shared by all replicates.
@@ -116,13 +122,33 @@ impl Stand {
         Totals { stems, ba, qmd }
     }
 
-    /// Totals without touching `bal`.
+    /// Totals without touching `bal`, summed with Kahan's compensation so that reported
+    /// totals do not carry rounding noise from the summation order.
     pub fn totals(&self) -> Totals {
-        let (mut sq, mut stems) = (0.0, 0.0);
-        for (&d, &e) in self.dbh.iter().zip(&self.stems) {
-            sq += e * d * d;
-            stems += e;
+        // Four interleaved compensated sums hide the latency of the compensation chain.
+        let mut sq = [Kahan::default(); 4];
+        let mut stems = [Kahan::default(); 4];
+        let mut d4 = self.dbh.chunks_exact(4);
+        let mut e4 = self.stems.chunks_exact(4);
+        for (d, e) in (&mut d4).zip(&mut e4) {
+            for k in 0..4 {
+                sq[k].add(e[k] * d[k] * d[k]);
+                stems[k].add(e[k]);
+            }
         }
+        for (&d, &e) in d4.remainder().iter().zip(e4.remainder()) {
+            sq[0].add(e * d * d);
+            stems[0].add(e);
+        }
+        let total = |lanes: [Kahan; 4]| {
+            let mut k = Kahan::default();
+            for lane in lanes {
+                k.add(lane.sum);
+                k.add(-lane.compensation);
+            }
+            k.value()
+        };
+        let (sq, stems) = (total(sq), total(stems));
         Totals {
             stems,
             ba: sq * M2_PER_CM2,
@@ -136,15 +162,14 @@ impl Stand {
 
     /// Drop records with no stems left, keeping the order (and `bal` aligned).
     pub fn compact(&mut self) {
+        // Branch-free: every record is written to slot j, which advances only for the living.
         let mut j = 0;
         for i in 0..self.dbh.len() {
-            if self.stems[i] > 0.0 {
-                self.dbh[j] = self.dbh[i];
-                self.stems[j] = self.stems[i];
-                self.tree[j] = self.tree[i];
-                self.bal[j] = self.bal[i];
-                j += 1;
-            }
+            self.dbh[j] = self.dbh[i];
+            self.stems[j] = self.stems[i];
+            self.tree[j] = self.tree[i];
+            self.bal[j] = self.bal[i];
+            j += usize::from(self.stems[i] > 0.0);
         }
         for v in [&mut self.dbh, &mut self.stems, &mut self.bal] {
             v.truncate(j);
@@ -154,28 +179,102 @@ impl Stand {
         self.tmp.truncate(j);
     }
 
-    /// Restore descending DBH order (ties by record index) after growth. Growth rarely
-    /// reorders trees, so insertion sort is close to one pass.
+    /// Restore descending DBH order after growth, in O(n) whatever the growth noise: a
+    /// counting sort into DBH buckets (about two records per bucket) followed by an insertion
+    /// pass that fixes the order inside buckets. Equal diameters keep their previous relative
+    /// order, so the result is deterministic. Nothing is allocated once the scratch vectors
+    /// have grown to the stand size.
     pub fn restore_order(&mut self) {
+        let n = self.dbh.len();
+        if n < 2 || self.dbh.windows(2).all(|w| w[0] >= w[1]) {
+            return;
+        }
+        let (lo, hi) = self
+            .dbh
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &d| {
+                (a.min(d), b.max(d))
+            });
+        let buckets = 2 * n;
+        let per_cm = (buckets - 1) as f64 / (hi - lo);
+        let counts = &mut self.counts;
+        counts.clear();
+        counts.resize(buckets, 0);
+        self.key.clear();
+        self.key.extend(self.dbh.iter().map(|&d| {
+            // Descending: the largest tree falls in bucket 0.
+            (((hi - d) * per_cm) as usize).min(buckets - 1) as u32
+        }));
+        for &k in &self.key {
+            counts[k as usize] += 1;
+        }
+        // Exclusive prefix sum kept in a register (no store-to-load chain through memory).
+        let mut start = 0;
+        for c in counts.iter_mut() {
+            let k = *c;
+            *c = start;
+            start += k;
+        }
+        for v in [&mut self.spare_dbh, &mut self.spare_stems] {
+            v.clear();
+            v.resize(n, 0.0);
+        }
+        self.spare_tree.clear();
+        self.spare_tree.resize(n, 0);
+        for i in 0..n {
+            let slot = &mut counts[self.key[i] as usize];
+            let j = *slot as usize;
+            *slot += 1;
+            self.spare_dbh[j] = self.dbh[i];
+            self.spare_stems[j] = self.stems[i];
+            self.spare_tree[j] = self.tree[i];
+        }
+        std::mem::swap(&mut self.dbh, &mut self.spare_dbh);
+        std::mem::swap(&mut self.stems, &mut self.spare_stems);
+        std::mem::swap(&mut self.tree, &mut self.spare_tree);
+        self.insertion_pass();
+    }
+
+    /// Insertion sort (descending, stable); linear on data sorted up to short runs.
+    fn insertion_pass(&mut self) {
         for i in 1..self.dbh.len() {
-            let (d, t) = (self.dbh[i], self.tree[i]);
-            let before =
-                |k: usize, dbh: &[f64], tree: &[u32]| dbh[k] < d || (dbh[k] == d && tree[k] > t);
-            if !before(i - 1, &self.dbh, &self.tree) {
+            let d = self.dbh[i];
+            if self.dbh[i - 1] >= d {
                 continue;
             }
-            let e = self.stems[i];
-            let mut k = i;
-            while k > 0 && before(k - 1, &self.dbh, &self.tree) {
-                self.dbh[k] = self.dbh[k - 1];
-                self.stems[k] = self.stems[k - 1];
-                self.tree[k] = self.tree[k - 1];
+            let mut k = i - 1;
+            while k > 0 && self.dbh[k - 1] < d {
                 k -= 1;
             }
+            let (e, t) = (self.stems[i], self.tree[i]);
+            self.dbh.copy_within(k..i, k + 1);
+            self.stems.copy_within(k..i, k + 1);
+            self.tree.copy_within(k..i, k + 1);
             self.dbh[k] = d;
             self.stems[k] = e;
             self.tree[k] = t;
         }
+    }
+}
+
+/// Compensated summation (Kahan 1965); branch-free, exact enough for sums of positive terms.
+#[derive(Debug, Default, Clone, Copy)]
+struct Kahan {
+    sum: f64,
+    compensation: f64,
+}
+
+impl Kahan {
+    #[inline]
+    fn add(&mut self, x: f64) {
+        let y = x - self.compensation;
+        let t = self.sum + y;
+        self.compensation = (t - self.sum) - y;
+        self.sum = t;
+    }
+
+    fn value(self) -> f64 {
+        self.sum
     }
 }
 
@@ -206,16 +305,16 @@ mod tests {
     }
 
     #[test]
-    fn restore_order_sorts_descending_with_ties_by_record() {
+    fn restore_order_sorts_descending_keeping_ties_in_place() {
         let mut s = Stand {
-            dbh: vec![5.0, 9.0, 7.0, 9.0],
-            stems: vec![1.0, 2.0, 3.0, 4.0],
-            tree: vec![0, 3, 1, 2],
+            dbh: vec![5.0, 9.0, 7.0, 9.0, 8.999, 0.5],
+            stems: vec![1.0, 2.0, 3.0, 4.0, 5.0, 6.0],
+            tree: vec![0, 3, 1, 2, 4, 5],
             ..Stand::default()
         };
         s.restore_order();
-        assert_eq!(s.dbh, vec![9.0, 9.0, 7.0, 5.0]);
-        assert_eq!(s.tree, vec![2, 3, 1, 0]);
-        assert_eq!(s.stems, vec![4.0, 2.0, 3.0, 1.0]);
+        assert_eq!(s.dbh, vec![9.0, 9.0, 8.999, 7.0, 5.0, 0.5]);
+        assert_eq!(s.tree, vec![3, 2, 4, 1, 0, 5]);
+        assert_eq!(s.stems, vec![2.0, 4.0, 5.0, 3.0, 1.0, 6.0]);
     }
 }

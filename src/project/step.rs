@@ -138,6 +138,7 @@ pub(crate) fn sub_step(
         bal,
         eta,
         tmp,
+        ..
     } = stand;
     let cov = Covariates {
         dbh,

@@ -36,7 +36,9 @@ pub fn summarise(values: &[f64]) -> Summary {
         return Summary::default();
     }
     let n = x.len() as f64;
-    let mean = x.iter().sum::<f64>() / n;
+    let first = x.iter().sum::<f64>() / n;
+    // One refinement step, so that identical values give exactly that value and SD 0.
+    let mean = first + x.iter().map(|v| v - first).sum::<f64>() / n;
     let sd = (x.len() > 1)
         .then(|| (x.iter().map(|v| (v - mean) * (v - mean)).sum::<f64>() / (n - 1.0)).sqrt());
     x.sort_by(f64::total_cmp);

@@ -1,1 +1,48 @@
-//! Writing results: CSV and JSON (atomically), SVG charts, the HTML report.
+//! Writing results: CSV and JSON tables, SVG charts. Every file of a run is rendered in memory
+//! first, then written to a temporary file in the target folder and renamed into place, so a
+//! failure leaves no partial output.
+
+mod atomic;
+mod charts;
+mod tables;
+
+use std::path::{Path, PathBuf};
+
+pub use atomic::write_files_atomically;
+pub use charts::{stems_chart_svg, survival_chart_svg};
+pub use tables::{classes_csv, run_json, summary_csv, trees_csv};
+
+use crate::project::{Driver, ProjectionResult};
+
+/// Render every output file of a projection: `summary.csv`, `classes.csv`, `run.json`,
+/// `survival.svg`, `stems.svg` and, for the expected driver, `trees.csv`.
+///
+/// # Errors
+/// [`crate::Error::Io`] if a chart cannot be drawn.
+pub fn render_projection(r: &ProjectionResult) -> Result<Vec<(String, Vec<u8>)>, crate::Error> {
+    let mut files = vec![
+        ("summary.csv".to_string(), summary_csv(r)),
+        ("classes.csv".to_string(), classes_csv(r)),
+        ("run.json".to_string(), run_json(r)),
+        (
+            "survival.svg".to_string(),
+            survival_chart_svg(r)?.into_bytes(),
+        ),
+        ("stems.svg".to_string(), stems_chart_svg(r)?.into_bytes()),
+    ];
+    if r.driver == Driver::Expected {
+        files.push(("trees.csv".to_string(), trees_csv(r)));
+    }
+    Ok(files)
+}
+
+/// Write the outputs of a projection into `dir` (created if missing), atomically per file;
+/// returns the paths written.
+///
+/// # Errors
+/// [`crate::Error::Io`] naming the path that could not be written; files already renamed into
+/// place by this call are removed again, and a folder this call created is removed.
+pub fn write_projection(dir: &Path, r: &ProjectionResult) -> Result<Vec<PathBuf>, crate::Error> {
+    let files = render_projection(r)?;
+    write_files_atomically(dir, &files)
+}

@@ -3,11 +3,13 @@
 
 mod cohort;
 mod load;
+mod plan;
 pub mod schema;
 mod trees;
 
 pub use cohort::quantile_diameters;
 pub use load::{InputFile, LoadedModel, Scenario, Uncertainty};
+pub use plan::{check, CheckReport};
 pub use schema::DbhDistribution;
 pub use trees::{read_tree_list, Attribute, AttributeValues, TreeList};
 

@@ -1,0 +1,65 @@
+//! PROJECT-W2 (design §9): 1,000 records × 1,000 replicates × 10 sub-steps, Monte Carlo with
+//! dynamic BAL, stochastic growth and random survival, parameters off; at 1 and 2 threads.
+//! Throughput = records × replicates × sub-steps / time.
+
+use std::path::Path;
+
+use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+use stemcast::project::{run_scenario, RunOptions};
+use stemcast::scenario::Scenario;
+
+const SURVIVAL: &str = "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5\n\
+[[coefficients]]\nterm = \"(intercept)\"\nestimate = 1.2\n\
+[[coefficients]]\nterm = \"dbh\"\nestimate = 0.15\n\
+[[coefficients]]\nterm = \"dbh^2\"\nestimate = -0.0012\n\
+[[coefficients]]\nterm = \"bal\"\nestimate = -0.04\n";
+
+fn growth() -> String {
+    format!(
+        "kind = \"growth\"\nresponse = \"ln_bai\"\nperiod_years = 5\nresidual_sd = 0.4\n\
+[[coefficients]]\nterm = \"(intercept)\"\nestimate = {:?}\n\
+[[coefficients]]\nterm = \"ln(dbh)\"\nestimate = 1.1\n\
+[[coefficients]]\nterm = \"dbh^2\"\nestimate = -0.0005\n\
+[[coefficients]]\nterm = \"bal\"\nestimate = -0.02\n",
+        -0.5 + (std::f64::consts::PI / 4.0).ln()
+    )
+}
+
+const SCENARIO: &str =
+    "name = \"w2\"\nhorizon_years = 50\nstep_years = 5\nreplicates = 1000\nseed = 1\n\
+[models]\nsurvival = \"s.toml\"\ngrowth = \"g.toml\"\n\
+[uncertainty]\nprocess = true\nparameters = false\ngrowth_residual = true\n\
+[cohort]\ntrees = \"trees.csv\"\n";
+
+fn scenario(dir: &Path) -> Scenario {
+    let trees = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/fixtures/projection/projection_w2_trees.csv");
+    std::fs::write(dir.join("s.toml"), SURVIVAL).expect("write survival model");
+    std::fs::write(dir.join("g.toml"), growth()).expect("write growth model");
+    std::fs::copy(trees, dir.join("trees.csv")).expect("copy tree list");
+    std::fs::write(dir.join("w2.toml"), SCENARIO).expect("write scenario");
+    Scenario::read(&dir.join("w2.toml")).expect("valid W2 scenario")
+}
+
+fn w2(c: &mut Criterion) {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let s = scenario(dir.path());
+    let mut g = c.benchmark_group("project_w2");
+    g.sample_size(10)
+        .warm_up_time(std::time::Duration::from_millis(500))
+        .measurement_time(std::time::Duration::from_secs(2))
+        .throughput(Throughput::Elements(1_000 * 1_000 * 10));
+    for threads in [1, 2] {
+        let o = RunOptions {
+            threads: Some(threads),
+            ..RunOptions::default()
+        };
+        g.bench_function(format!("monte_carlo_{threads}_threads"), |b| {
+            b.iter(|| run_scenario(&s, &o).expect("projection"))
+        });
+    }
+    g.finish();
+}
+
+criterion_group!(benches, w2);
+criterion_main!(benches);

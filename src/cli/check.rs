@@ -1,0 +1,38 @@
+//! `stemcast check SCENARIO.toml`: validate a scenario and its models against the trees, print
+//! the plan and any extrapolation warnings.
+
+use std::path::PathBuf;
+
+use stemcast::scenario::{check, Scenario};
+
+/// Validate a scenario and print its projection plan.
+#[derive(Debug, Clone, clap::Args)]
+pub struct Args {
+    /// Scenario file (TOML, design §5).
+    pub scenario: PathBuf,
+}
+
+/// Run `stemcast check`.
+///
+/// # Errors
+/// The first problem found in the scenario, its models or its trees (exit 2).
+pub fn run(args: &Args) -> Result<(), stemcast::Error> {
+    let scenario = Scenario::read(&args.scenario)?;
+    let report = check(&scenario)?;
+    for line in &report.plan {
+        println!("{line}");
+    }
+    for w in &report.warnings {
+        println!("warning: {w}");
+    }
+    println!(
+        "{}: ok{}",
+        args.scenario.display(),
+        if report.warnings.is_empty() {
+            String::new()
+        } else {
+            format!(" ({} warnings)", report.warnings.len())
+        }
+    );
+    Ok(())
+}

@@ -1,0 +1,118 @@
+//! What `check` reports: the projection plan in words, and extrapolation warnings from the
+//! expected trajectory against the models' fitting ranges.
+
+use super::{AttributeValues, Scenario};
+use crate::model::stored::LinearPredictor;
+use crate::project::{run_scenario, RunOptions};
+
+/// The result of checking a scenario.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CheckReport {
+    /// One line per fact of the plan.
+    pub plan: Vec<String>,
+    /// Extrapolation warnings found along the expected trajectory.
+    pub warnings: Vec<String>,
+}
+
+fn terms(p: &LinearPredictor) -> String {
+    p.names().join(" + ")
+}
+
+/// Describe the plan of a validated scenario and run its expected trajectory to find
+/// extrapolation beyond the models' `[fit.ranges]`.
+///
+/// # Errors
+/// Whatever the expected projection returns (nothing for a valid scenario in practice).
+pub fn check(s: &Scenario) -> Result<CheckReport, crate::Error> {
+    let t = &s.trees;
+    let stems: f64 = t.stems_per_ha.iter().sum();
+    let (lo, hi) = t
+        .dbh_cm
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &d| {
+            (a.min(d), b.max(d))
+        });
+    let attrs: Vec<String> = t
+        .attributes
+        .iter()
+        .map(|a| match &a.values {
+            AttributeValues::Numeric(_) => format!("{} (numeric)", a.name),
+            AttributeValues::Categorical { levels, .. } => {
+                format!("{} ({})", a.name, levels.join(", "))
+            }
+        })
+        .collect();
+    let sm = &s.survival.model;
+    let gm = &s.growth.model;
+    let u = s.uncertainty;
+    let mut plan = vec![
+        format!("scenario \"{}\" ({})", s.name, s.file),
+        format!(
+            "trees: {} records of stand {}, {stems:.1} stems/ha, DBH {lo:.2}–{hi:.2} cm{}",
+            t.len(),
+            t.stand,
+            if attrs.is_empty() {
+                String::new()
+            } else {
+                format!(", attributes: {}", attrs.join("; "))
+            }
+        ),
+        format!(
+            "survival model {}: {:?} link, outcome {:?}, interval {:?}, period {} years, {:?} units; η = {}",
+            s.survival.path.display(),
+            sm.link,
+            sm.outcome,
+            sm.interval,
+            s.survival.period_years,
+            sm.common.units,
+            terms(&sm.common.predictor)
+        ),
+        format!(
+            "growth model {}: response {:?}, period {} years, residual SD {}, {:?} units; η = {}",
+            s.growth.path.display(),
+            gm.response,
+            s.growth.period_years,
+            gm.residual_sd,
+            gm.common.units,
+            terms(&gm.common.predictor)
+        ),
+        format!(
+            "projection: {} years, output every {} years, sub-steps of {} years ({} per output step)",
+            s.horizon_years,
+            s.step_years,
+            s.sub_step_years,
+            (s.step_years / s.sub_step_years).round()
+        ),
+        format!(
+            "Monte Carlo: {} replicates, seed {}; mortality {}; parameter draws {}; growth residuals {}",
+            s.replicates,
+            s.seed,
+            match (u.process, s.area_ha) {
+                (false, _) => "expected (no process noise)".to_string(),
+                (true, None) => "Bernoulli per record".to_string(),
+                (true, Some(a)) => format!("binomial whole stems on {a} ha"),
+            },
+            if u.parameters { "on" } else { "off" },
+            if u.growth_residual { "on" } else { "off" }
+        ),
+        if s.depends_on_stand() {
+            "model terms read stand covariates, so the Monte Carlo mean can differ from the expected trajectory".to_string()
+        } else {
+            "no model term reads stand covariates: the Monte Carlo mean estimates the expected trajectory".to_string()
+        },
+    ];
+    if let Some(a) = s.start_age_years {
+        plan.push(format!("ages: {a} at year 0"));
+    }
+    let expected = run_scenario(
+        s,
+        &RunOptions {
+            expected: true,
+            ..RunOptions::default()
+        },
+    )?;
+    Ok(CheckReport {
+        plan,
+        warnings: expected.warnings,
+    })
+}
