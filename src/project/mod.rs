@@ -159,6 +159,38 @@ pub fn run_scenario_with_progress(
     })
 }
 
+/// Basal area in strictly larger trees (m²/ha) for each record, in input order, computed the
+/// way the projector does at the start of every sub-step (descending DBH order and a prefix
+/// sum; equal diameters are not larger).
+///
+/// # Formula
+/// `BAL_i = Σ_{j: d_j > d_i} e_j · π/40000 · d_j²`.
+///
+/// # Examples
+/// ```
+/// // handbook-checks.md: d = 10, 20, 30 cm at 100 trees/ha each → BAL = 10.21018, 7.06858, 0.
+/// let bal = stemcast::project::basal_area_larger(&[10.0, 20.0, 30.0], &[100.0; 3]);
+/// assert!((bal[0] - 10.21018).abs() < 1e-5 && bal[2] == 0.0);
+/// ```
+pub fn basal_area_larger(dbh_cm: &[f64], stems_per_ha: &[f64]) -> Vec<f64> {
+    let n = dbh_cm.len().min(stems_per_ha.len());
+    let trees = crate::scenario::TreeList {
+        stand: String::new(),
+        tree_ids: (0..n).map(|i| i.to_string()).collect(),
+        dbh_cm: dbh_cm[..n].to_vec(),
+        stems_per_ha: stems_per_ha[..n].to_vec(),
+        attributes: Vec::new(),
+    };
+    let mut stand = Stand::default();
+    stand.reset(&stand::Initial::of(&trees));
+    stand.covariates();
+    let mut out = vec![0.0; n];
+    for (&t, &b) in stand.tree.iter().zip(&stand.bal) {
+        out[t as usize] = b;
+    }
+    out
+}
+
 fn warnings(s: &Scenario, traces: &[Trace], years: &[YearSummary]) -> Vec<String> {
     let mut out = Vec::new();
     let ranged = s

@@ -83,3 +83,55 @@ pub fn fixtures() -> PathBuf {
 pub fn close(a: f64, b: f64, rtol: f64, atol: f64) -> bool {
     (a - b).abs() <= atol + rtol * b.abs()
 }
+
+/// A scenario file: name, horizon, step, replicates, seed, extra top-level lines, the models
+/// `s.toml` and `g.toml`, the given uncertainty and cohort tables.
+pub fn scenario_toml(
+    horizon: u32,
+    step: u32,
+    replicates: u32,
+    uncertainty: &str,
+    cohort: &str,
+) -> String {
+    format!(
+        "name = \"t\"\nhorizon_years = {horizon}\nstep_years = {step}\nreplicates = {replicates}\nseed = 42\n\n[models]\nsurvival = \"s.toml\"\ngrowth = \"g.toml\"\n\n[uncertainty]\n{uncertainty}\n\n[cohort]\n{cohort}\n"
+    )
+}
+
+/// Survival model with a constant probability `p` per `period` years (logit intercept).
+pub fn constant_survival(p: f64, period: u32) -> String {
+    model_toml(
+        &format!("kind = \"survival\"\nlink = \"logit\"\nperiod_years = {period}"),
+        &[("(intercept)", (p / (1.0 - p)).ln())],
+    )
+}
+
+/// Growth model: annual increment `cm_per_year` + `slope`·dbh, residual SD `sd`.
+pub fn linear_growth(cm_per_year: f64, slope: f64, sd: f64, period: u32) -> String {
+    model_toml(
+        &format!("kind = \"growth\"\nresponse = \"annual_increment\"\nperiod_years = {period}\nresidual_sd = {sd:?}"),
+        &[("(intercept)", cm_per_year), ("dbh", slope)],
+    )
+}
+
+/// Read a scenario written into `d` as `sc.toml`.
+pub fn scenario_in(d: &Dir, text: &str) -> stemcast::scenario::Scenario {
+    let p = d.write("sc.toml", text);
+    stemcast::scenario::Scenario::read(&p).expect("valid scenario")
+}
+
+/// Options for the expected driver.
+pub fn expected() -> stemcast::project::RunOptions {
+    stemcast::project::RunOptions {
+        expected: true,
+        ..Default::default()
+    }
+}
+
+/// Options for Monte Carlo with `threads`.
+pub fn monte_carlo(threads: usize) -> stemcast::project::RunOptions {
+    stemcast::project::RunOptions {
+        threads: Some(threads),
+        ..Default::default()
+    }
+}

@@ -1,0 +1,234 @@
+//! Bad input (issue 3, item 8): every case is a bad-input error (exit code 2) whose message
+//! names the file and the key (or line and column), and nothing is written.
+
+mod common;
+
+use common::*;
+use std::path::Path;
+use stemcast::project::{run_scenario, RunOptions};
+use stemcast::scenario::Scenario;
+
+const COHORT: &str =
+    "stems_per_ha = 1000\nrecords = 20\ndbh = { distribution = \"fixed\", value = 10 }";
+
+/// What `stemcast project` does: read, run, write. Returns the error.
+fn project(scenario: &Path, out: &Path) -> stemcast::Error {
+    let result = Scenario::read(scenario)
+        .and_then(|s| run_scenario(&s, &RunOptions::default()))
+        .and_then(|r| stemcast::report::write_projection(out, &r).map(|_| ()));
+    match result {
+        Ok(()) => panic!("{} was accepted", scenario.display()),
+        Err(e) => e,
+    }
+}
+
+/// Write good models, then `scenario`, run it and check the error mentions every `needle`.
+fn assert_bad(scenario: &str, needles: &[&str]) {
+    let d = Dir::new();
+    d.write("s.toml", &w2_survival());
+    d.write("g.toml", &w2_growth());
+    assert_bad_in(&d, scenario, needles);
+}
+
+fn assert_bad_in(d: &Dir, scenario: &str, needles: &[&str]) {
+    let p = d.write("sc.toml", scenario);
+    let out = d.path().join("out");
+    let e = project(&p, &out);
+    let message = e.to_string();
+    assert_eq!(e.exit_code(), 2, "{message}");
+    for n in needles {
+        assert!(message.contains(n), "`{n}` not in: {message}");
+    }
+    assert!(!out.exists(), "output written despite: {message}");
+}
+
+#[test]
+fn unknown_keys_are_named_with_their_table() {
+    assert_bad(
+        &scenario_toml(20, 5, 10, "", COHORT).replace("seed = 42", "seed = 42\nsed = 1"),
+        &["sc.toml", "sed", "unknown field"],
+    );
+    assert_bad(
+        &scenario_toml(20, 5, 10, "proces = true", COHORT),
+        &["sc.toml", "uncertainty.proces"],
+    );
+    assert_bad(
+        &scenario_toml(
+            20,
+            5,
+            10,
+            "",
+            &COHORT.replace("value = 10", "value = 10, sd = 2"),
+        ),
+        &["sc.toml", "cohort.dbh", "sd"],
+    );
+}
+
+#[test]
+fn actions_are_not_accepted_yet() {
+    assert_bad(
+        &format!(
+            "{}\n[[actions]]\nyear = 10\nthin = {{ from = \"below\", to_stems_per_ha = 700 }}\n",
+            scenario_toml(20, 5, 10, "", COHORT)
+        ),
+        &["sc.toml", "actions"],
+    );
+}
+
+#[test]
+fn missing_model_file() {
+    assert_bad(
+        &scenario_toml(20, 5, 10, "", COHORT).replace("g.toml", "nothere.toml"),
+        &["sc.toml", "models.growth", "nothere.toml"],
+    );
+}
+
+#[test]
+fn step_not_a_multiple_of_a_model_period() {
+    assert_bad(
+        &scenario_toml(21, 7, 10, "", COHORT),
+        &["sc.toml", "step_years", "5-year period"],
+    );
+}
+
+#[test]
+fn model_without_a_period() {
+    let d = Dir::new();
+    d.write("s.toml", &w2_survival().replace("period_years = 5\n", ""));
+    d.write("g.toml", &w2_growth());
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", COHORT),
+        &["sc.toml", "models.survival", "period_years"],
+    );
+}
+
+#[test]
+fn growth_model_with_response_column_cannot_be_projected() {
+    let d = Dir::new();
+    d.write("s.toml", &w2_survival());
+    d.write("g.toml", &w2_growth().replace("\"ln_bai\"", "\"column\""));
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", COHORT),
+        &["models.growth", "column"],
+    );
+}
+
+#[test]
+fn negative_replicates() {
+    assert_bad(
+        &scenario_toml(20, 5, 10, "", COHORT).replace("replicates = 10", "replicates = -3"),
+        &["sc.toml", "replicates", "-3"],
+    );
+}
+
+#[test]
+fn unknown_level_in_the_cohort_attributes() {
+    let d = Dir::new();
+    d.write(
+        "s.toml",
+        &(model_toml(
+            "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5",
+            &[("(intercept)", 1.0), ("treatment=released", 0.5)],
+        ) + "[categorical.treatment]\nlevels = [\"control\", \"released\"]\nreference = \"control\"\n"),
+    );
+    d.write("g.toml", &w2_growth());
+    let cohort = format!("{COHORT}\nattributes = {{ treatment = \"relased\" }}");
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", &cohort),
+        &[
+            "sc.toml",
+            "cohort.attributes.treatment",
+            "relased",
+            "control, released",
+        ],
+    );
+}
+
+#[test]
+fn term_on_an_unknown_attribute() {
+    let d = Dir::new();
+    d.write(
+        "s.toml",
+        &model_toml(
+            "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5",
+            &[("(intercept)", 1.0), ("site_index", 0.05)],
+        ),
+    );
+    d.write("g.toml", &w2_growth());
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", COHORT),
+        &["models.survival", "site_index"],
+    );
+}
+
+#[test]
+fn tree_list_with_duplicate_ids_or_several_stands() {
+    let d = Dir::new();
+    d.write("s.toml", &w2_survival());
+    d.write("g.toml", &w2_growth());
+    d.write(
+        "trees.csv",
+        "tree,dbh,expansion\n1,10,25\n2,12,25\n1,14,25\n",
+    );
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", "trees = \"trees.csv\""),
+        &["trees.csv", "line 4", "column \"tree\"", "first on line 2"],
+    );
+    d.write(
+        "trees.csv",
+        "stand,tree,dbh,expansion\nA,1,10,25\nA,2,12,25\nB,3,14,25\n",
+    );
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", "trees = \"trees.csv\""),
+        &["trees.csv", "line 4", "column \"stand\"", "batch"],
+    );
+    d.write("trees.csv", "tree,dbh,expansion\n1,10,25\n2,-1,25\n");
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", "trees = \"trees.csv\""),
+        &["trees.csv", "line 3", "column \"dbh\"", "positive"],
+    );
+    d.write("trees.csv", "tree,dbh,expansion\n1,10,25\n2,12,0\n");
+    assert_bad_in(
+        &d,
+        &scenario_toml(20, 5, 10, "", "trees = \"trees.csv\""),
+        &["trees.csv", "line 3", "column \"expansion\""],
+    );
+}
+
+#[test]
+fn area_that_does_not_give_whole_stems() {
+    // 1000 stems/ha over 20 records = 50 stems/ha each; 0.013 ha × 50 = 0.65 stems.
+    assert_bad(
+        &scenario_toml(20, 5, 10, "", &format!("{COHORT}\narea_ha = 0.013")),
+        &["sc.toml", "cohort.area_ha", "whole number"],
+    );
+}
+
+#[test]
+fn parameters_without_covariance() {
+    assert_bad(
+        &scenario_toml(20, 5, 10, "parameters = true", COHORT),
+        &["sc.toml", "uncertainty.parameters", "covariance"],
+    );
+}
+
+#[test]
+fn cohort_with_non_positive_diameters() {
+    assert_bad(
+        &scenario_toml(
+            20,
+            5,
+            10,
+            "",
+            "stems_per_ha = 1000\nrecords = 50\ndbh = { distribution = \"normal\", mean = 3, sd = 4 }",
+        ),
+        &["sc.toml", "cohort.dbh", "not positive"],
+    );
+}
