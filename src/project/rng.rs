@@ -47,111 +47,164 @@ pub(crate) fn uniform(bits: u64) -> f64 {
     ((bits >> 11) as f64 + 0.5) * (1.0 / (1u64 << 53) as f64)
 }
 
-/// A standard normal deviate from one uniform by inversion (Wichura 1988, algorithm AS 241,
-/// PPND16; relative accuracy about 1e-16).
+/// A standard normal deviate from one uniform by inversion, so every draw consumes exactly
+/// one uniform.
 #[inline]
 pub(crate) fn normal(bits: u64) -> f64 {
-    inverse_normal_cdf(uniform(bits))
+    acklam(uniform(bits))
 }
 
-// Coefficients of AS 241 (PPND16), as published (Wichura 1988, Applied Statistics 37:477–484).
-#[allow(clippy::excessive_precision, clippy::unreadable_literal)]
-const A: [f64; 8] = [
-    3.3871328727963666080e0,
-    1.3314166789178437745e+2,
-    1.9715909503065514427e+3,
-    1.3731693765509461125e+4,
-    4.5921953931549871457e+4,
-    6.7265770927008700853e+4,
-    3.3430575583588128105e+4,
-    2.5090809287301226727e+3,
-];
-#[allow(clippy::excessive_precision, clippy::unreadable_literal)]
-const B: [f64; 8] = [
-    1.0,
-    4.2313330701600911252e+1,
-    6.8718700749205790830e+2,
-    5.3941960214247511077e+3,
-    2.1213794301586595867e+4,
-    3.9307895800092710610e+4,
-    2.8729085735721942674e+4,
-    5.2264952788528545610e+3,
-];
-#[allow(clippy::excessive_precision, clippy::unreadable_literal)]
-const C: [f64; 8] = [
-    1.42343711074968357734e0,
-    4.63033784615654529590e0,
-    5.76949722146069140550e0,
-    3.64784832476320460504e0,
-    1.27045825245236838258e0,
-    2.41780725177450611770e-1,
-    2.27238449892691845833e-2,
-    7.74545014278341407640e-4,
-];
-#[allow(clippy::excessive_precision, clippy::unreadable_literal)]
-const D: [f64; 8] = [
-    1.0,
-    2.05319162663775882187e0,
-    1.67638483018380384940e0,
-    6.89767334985100004550e-1,
-    1.48103976427480074590e-1,
-    1.51986665636164571966e-2,
-    5.47593808499534494600e-4,
-    1.05075007164441684324e-9,
-];
-#[allow(clippy::excessive_precision, clippy::unreadable_literal)]
-const E: [f64; 8] = [
-    6.65790464350110377720e0,
-    5.46378491116411436990e0,
-    1.78482653991729133580e0,
-    2.96560571828504891230e-1,
-    2.65321895265761230930e-2,
-    1.24266094738807843860e-3,
-    2.71155556874348757815e-5,
-    2.01033439929228813265e-7,
-];
-#[allow(clippy::excessive_precision, clippy::unreadable_literal)]
-const F: [f64; 8] = [
-    1.0,
-    5.99832206555887937690e-1,
-    1.36929880922735805310e-1,
-    1.48753612908506148525e-2,
-    7.86869131145613259100e-4,
-    1.84631831751005468180e-5,
-    1.42151175831644588870e-7,
-    2.04426310338993978564e-15,
-];
-
-/// Σ c_k r^k by Horner's rule.
-#[inline(always)]
-fn poly(c: &[f64; 8], r: f64) -> f64 {
-    c.iter().rev().fold(0.0, |acc, &k| acc * r + k)
-}
-
-/// Φ⁻¹(p) for p in (0, 1) (Wichura 1988, AS 241).
+/// Φ⁻¹(p) by Acklam's rational approximation (relative error below 1.2e-9): cheaper than
+/// AS 241 and far more accurate than Monte Carlo needs.
 #[inline]
-pub(crate) fn inverse_normal_cdf(p: f64) -> f64 {
-    let q = p - 0.5;
-    if q.abs() <= 0.425 {
-        let r = 0.180625 - q * q;
-        return q * poly(&A, r) / poly(&B, r);
-    }
-    let r = (-(if q < 0.0 { p } else { 1.0 - p }).ln()).sqrt();
-    let x = if r <= 5.0 {
-        poly(&C, r - 1.6) / poly(&D, r - 1.6)
-    } else {
-        poly(&E, r - 5.0) / poly(&F, r - 5.0)
+#[allow(clippy::excessive_precision)]
+pub(crate) fn acklam(p: f64) -> f64 {
+    const A: [f64; 6] = [
+        -3.969683028665376e+01,
+        2.209460984245205e+02,
+        -2.759285104469687e+02,
+        1.383577518672690e+02,
+        -3.066479806614716e+01,
+        2.506628277459239e+00,
+    ];
+    const B: [f64; 5] = [
+        -5.447609879822406e+01,
+        1.615858368580409e+02,
+        -1.556989798598866e+02,
+        6.680131188771972e+01,
+        -1.328068155288572e+01,
+    ];
+    const C: [f64; 6] = [
+        -7.784894002430293e-03,
+        -3.223964580411365e-01,
+        -2.400758277161838e+00,
+        -2.549732539343734e+00,
+        4.374664141464968e+00,
+        2.938163982698783e+00,
+    ];
+    const D: [f64; 4] = [
+        7.784695709041462e-03,
+        3.224671290700398e-01,
+        2.445134137142996e+00,
+        3.754408661907416e+00,
+    ];
+    const LOW: f64 = 0.02425;
+    let tail = |q: f64| {
+        let t = (-2.0 * q.ln()).sqrt();
+        (((((C[0] * t + C[1]) * t + C[2]) * t + C[3]) * t + C[4]) * t + C[5])
+            / ((((D[0] * t + D[1]) * t + D[2]) * t + D[3]) * t + 1.0)
     };
-    if q < 0.0 {
-        -x
+    if p < LOW {
+        tail(p)
+    } else if p > 1.0 - LOW {
+        -tail(1.0 - p)
     } else {
-        x
+        let q = p - 0.5;
+        let r = q * q;
+        (((((A[0] * r + A[1]) * r + A[2]) * r + A[3]) * r + A[4]) * r + A[5]) * q
+            / (((((B[0] * r + B[1]) * r + B[2]) * r + B[3]) * r + B[4]) * r + 1.0)
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // Reference for the fast generator: AS 241, accurate to about 1e-16.
+    // Coefficients of AS 241 (PPND16), as published (Wichura 1988, Applied Statistics 37:477–484).
+    #[allow(clippy::excessive_precision, clippy::unreadable_literal)]
+    const A: [f64; 8] = [
+        3.3871328727963666080e0,
+        1.3314166789178437745e+2,
+        1.9715909503065514427e+3,
+        1.3731693765509461125e+4,
+        4.5921953931549871457e+4,
+        6.7265770927008700853e+4,
+        3.3430575583588128105e+4,
+        2.5090809287301226727e+3,
+    ];
+    #[allow(clippy::excessive_precision, clippy::unreadable_literal)]
+    const B: [f64; 8] = [
+        1.0,
+        4.2313330701600911252e+1,
+        6.8718700749205790830e+2,
+        5.3941960214247511077e+3,
+        2.1213794301586595867e+4,
+        3.9307895800092710610e+4,
+        2.8729085735721942674e+4,
+        5.2264952788528545610e+3,
+    ];
+    #[allow(clippy::excessive_precision, clippy::unreadable_literal)]
+    const C: [f64; 8] = [
+        1.42343711074968357734e0,
+        4.63033784615654529590e0,
+        5.76949722146069140550e0,
+        3.64784832476320460504e0,
+        1.27045825245236838258e0,
+        2.41780725177450611770e-1,
+        2.27238449892691845833e-2,
+        7.74545014278341407640e-4,
+    ];
+    #[allow(clippy::excessive_precision, clippy::unreadable_literal)]
+    const D: [f64; 8] = [
+        1.0,
+        2.05319162663775882187e0,
+        1.67638483018380384940e0,
+        6.89767334985100004550e-1,
+        1.48103976427480074590e-1,
+        1.51986665636164571966e-2,
+        5.47593808499534494600e-4,
+        1.05075007164441684324e-9,
+    ];
+    #[allow(clippy::excessive_precision, clippy::unreadable_literal)]
+    const E: [f64; 8] = [
+        6.65790464350110377720e0,
+        5.46378491116411436990e0,
+        1.78482653991729133580e0,
+        2.96560571828504891230e-1,
+        2.65321895265761230930e-2,
+        1.24266094738807843860e-3,
+        2.71155556874348757815e-5,
+        2.01033439929228813265e-7,
+    ];
+    #[allow(clippy::excessive_precision, clippy::unreadable_literal)]
+    const F: [f64; 8] = [
+        1.0,
+        5.99832206555887937690e-1,
+        1.36929880922735805310e-1,
+        1.48753612908506148525e-2,
+        7.86869131145613259100e-4,
+        1.84631831751005468180e-5,
+        1.42151175831644588870e-7,
+        2.04426310338993978564e-15,
+    ];
+
+    /// Σ c_k r^k by Horner's rule.
+    #[inline(always)]
+    fn poly(c: &[f64; 8], r: f64) -> f64 {
+        c.iter().rev().fold(0.0, |acc, &k| acc * r + k)
+    }
+
+    /// Φ⁻¹(p) for p in (0, 1) (Wichura 1988, AS 241).
+    #[inline]
+    fn inverse_normal_cdf(p: f64) -> f64 {
+        let q = p - 0.5;
+        if q.abs() <= 0.425 {
+            let r = 0.180625 - q * q;
+            return q * poly(&A, r) / poly(&B, r);
+        }
+        let r = (-(if q < 0.0 { p } else { 1.0 - p }).ln()).sqrt();
+        let x = if r <= 5.0 {
+            poly(&C, r - 1.6) / poly(&D, r - 1.6)
+        } else {
+            poly(&E, r - 5.0) / poly(&F, r - 5.0)
+        };
+        if q < 0.0 {
+            -x
+        } else {
+            x
+        }
+    }
 
     #[test]
     fn inverse_normal_matches_tabulated_quantiles() {
@@ -160,6 +213,23 @@ mod tests {
         assert!((inverse_normal_cdf(0.05) + 1.644_853_626_951_472_2).abs() < 1e-14);
         assert!((inverse_normal_cdf(1e-10) + 6.361_340_902_404_056).abs() < 1e-12);
         assert_eq!(inverse_normal_cdf(0.5), 0.0);
+    }
+
+    #[test]
+    fn acklam_agrees_with_as241_to_its_stated_accuracy() {
+        // Acklam's published bound: relative error below 1.15e-9 over (0, 1).
+        for k in 1..10_000 {
+            let p = k as f64 / 10_000.0;
+            let (a, w) = (acklam(p), inverse_normal_cdf(p));
+            assert!(
+                (a - w).abs() <= 1.2e-9 * w.abs().max(1e-3),
+                "p {p}: {a} vs {w}"
+            );
+        }
+        for p in [1e-12, 1e-6, 0.02, 0.03, 0.97, 0.999_999] {
+            let (a, w) = (acklam(p), inverse_normal_cdf(p));
+            assert!((a - w).abs() <= 1.2e-9 * w.abs(), "p {p}: {a} vs {w}");
+        }
     }
 
     #[test]

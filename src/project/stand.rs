@@ -180,7 +180,7 @@ impl Stand {
     }
 
     /// Restore descending DBH order after growth, in O(n) whatever the growth noise: a
-    /// counting sort into DBH buckets (about two records per bucket) followed by an insertion
+    /// counting sort into DBH buckets (about one record per two buckets) followed by an insertion
     /// pass that fixes the order inside buckets. Equal diameters keep their previous relative
     /// order, so the result is deterministic. Nothing is allocated once the scratch vectors
     /// have grown to the stand size.
@@ -195,7 +195,7 @@ impl Stand {
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &d| {
                 (a.min(d), b.max(d))
             });
-        let buckets = 2 * n;
+        let buckets = 4 * n;
         let per_cm = (buckets - 1) as f64 / (hi - lo);
         let counts = &mut self.counts;
         counts.clear();
