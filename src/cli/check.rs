@@ -31,7 +31,8 @@ pub fn run(args: &Args) -> Result<(), stemcast::Error> {
         if report.warnings.is_empty() {
             String::new()
         } else {
-            format!(" ({} warnings)", report.warnings.len())
+            let n = report.warnings.len();
+            format!(" ({n} warning{})", if n == 1 { "" } else { "s" })
         }
     );
     Ok(())

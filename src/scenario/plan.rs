@@ -14,6 +14,14 @@ pub struct CheckReport {
     pub warnings: Vec<String>,
 }
 
+/// The name a value has in model files (its serde form), e.g. `annualized`, `ln_bai`.
+fn name_of<T: serde::Serialize>(value: &T) -> String {
+    match serde_json::to_value(value) {
+        Ok(serde_json::Value::String(s)) => s,
+        _ => String::from("?"),
+    }
+}
+
 fn terms(p: &LinearPredictor) -> String {
     p.names().join(" + ")
 }
@@ -58,22 +66,22 @@ pub fn check(s: &Scenario) -> Result<CheckReport, crate::Error> {
             }
         ),
         format!(
-            "survival model {}: {:?} link, outcome {:?}, interval {:?}, period {} years, {:?} units; η = {}",
+            "survival model {}: {} link, outcome {}, interval {}, period {} years, {} units; η = {}",
             s.survival.path.display(),
-            sm.link,
-            sm.outcome,
-            sm.interval,
+            sm.link.name(),
+            name_of(&sm.outcome),
+            name_of(&sm.interval),
             s.survival.period_years,
-            sm.common.units,
+            name_of(&sm.common.units),
             terms(&sm.common.predictor)
         ),
         format!(
-            "growth model {}: response {:?}, period {} years, residual SD {}, {:?} units; η = {}",
+            "growth model {}: response {}, period {} years, residual SD {}, {} units; η = {}",
             s.growth.path.display(),
-            gm.response,
+            name_of(&gm.response),
             s.growth.period_years,
             gm.residual_sd,
-            gm.common.units,
+            name_of(&gm.common.units),
             terms(&gm.common.predictor)
         ),
         format!(
