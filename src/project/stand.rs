@@ -189,24 +189,22 @@ impl Stand {
         if n < 2 || self.dbh.windows(2).all(|w| w[0] >= w[1]) {
             return;
         }
-        let (lo, hi) = self
-            .dbh
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &d| {
-                (a.min(d), b.max(d))
-            });
+        let (mut lo, mut hi) = (self.dbh[0], self.dbh[0]);
+        for &d in &self.dbh {
+            lo = if d < lo { d } else { lo };
+            hi = if d > hi { d } else { hi };
+        }
         let buckets = 4 * n;
         let per_cm = (buckets - 1) as f64 / (hi - lo);
         let counts = &mut self.counts;
         counts.clear();
         counts.resize(buckets, 0);
         self.key.clear();
-        self.key.extend(self.dbh.iter().map(|&d| {
+        for &d in &self.dbh {
             // Descending: the largest tree falls in bucket 0.
-            (((hi - d) * per_cm) as usize).min(buckets - 1) as u32
-        }));
-        for &k in &self.key {
-            counts[k as usize] += 1;
+            let k = (((hi - d) * per_cm) as usize).min(buckets - 1);
+            counts[k] += 1;
+            self.key.push(k as u32);
         }
         // Exclusive prefix sum kept in a register (no store-to-load chain through memory).
         let mut start = 0;
@@ -215,19 +213,22 @@ impl Stand {
             *c = start;
             start += k;
         }
-        for v in [&mut self.spare_dbh, &mut self.spare_stems] {
-            v.clear();
-            v.resize(n, 0.0);
-        }
-        self.spare_tree.clear();
-        self.spare_tree.resize(n, 0);
-        for i in 0..n {
-            let slot = &mut counts[self.key[i] as usize];
+        fit(&mut self.spare_dbh, n, 0.0);
+        fit(&mut self.spare_stems, n, 0.0);
+        fit(&mut self.spare_tree, n, 0);
+        for (((&k, &d), &e), &t) in self
+            .key
+            .iter()
+            .zip(&self.dbh)
+            .zip(&self.stems)
+            .zip(&self.tree)
+        {
+            let slot = &mut counts[k as usize];
             let j = *slot as usize;
             *slot += 1;
-            self.spare_dbh[j] = self.dbh[i];
-            self.spare_stems[j] = self.stems[i];
-            self.spare_tree[j] = self.tree[i];
+            self.spare_dbh[j] = d;
+            self.spare_stems[j] = e;
+            self.spare_tree[j] = t;
         }
         std::mem::swap(&mut self.dbh, &mut self.spare_dbh);
         std::mem::swap(&mut self.stems, &mut self.spare_stems);
@@ -254,6 +255,15 @@ impl Stand {
             self.stems[k] = e;
             self.tree[k] = t;
         }
+    }
+}
+
+/// Resize `v` to `n` without touching the kept elements (they are all overwritten).
+fn fit<T: Copy>(v: &mut Vec<T>, n: usize, fill: T) {
+    if v.len() >= n {
+        v.truncate(n);
+    } else {
+        v.resize(n, fill);
     }
 }
 
