@@ -65,13 +65,33 @@ fn unknown_keys_are_named_with_their_table() {
 }
 
 #[test]
-fn actions_are_not_accepted_yet() {
-    assert_bad(
-        &format!(
-            "{}\n[[actions]]\nyear = 10\nthin = {{ from = \"below\", to_stems_per_ha = 700 }}\n",
+fn bad_actions() {
+    let with = |action: &str| {
+        format!(
+            "{}\n[[actions]]\n{action}\n",
             scenario_toml(20, 5, 10, "", COHORT)
-        ),
-        &["sc.toml", "actions"],
+        )
+    };
+    // Density limits are not implemented yet, so the key is unknown.
+    assert_bad(
+        &with("year = 10\ndensity_limit = { sdi_max = 900 }"),
+        &["sc.toml", "actions", "density_limit"],
+    );
+    assert_bad(
+        &with("year = 10\nthin = { from = \"below\", to_stems_per_ha = 700 }\nset = { x = 1 }"),
+        &["sc.toml", "actions[0]", "exactly one"],
+    );
+    assert_bad(
+        &with("year = 25\nthin = { from = \"below\", to_stems_per_ha = 700 }"),
+        &["sc.toml", "actions[0].year", "outside"],
+    );
+    assert_bad(
+        &with("year = 5\nthin = { from = \"middle\", to_stems_per_ha = 700 }"),
+        &["sc.toml", "actions", "middle"],
+    );
+    assert_bad(
+        &with("year = 5\nset = { treatment = \"released\" }"),
+        &["sc.toml", "actions[0].set.treatment", "no attribute"],
     );
 }
 

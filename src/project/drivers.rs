@@ -1,6 +1,7 @@
 //! The two drivers sharing the sub-step: the expected-value trajectory and Monte Carlo
 //! replicates. One [`Engine`] holds everything prepared once per run.
 
+use super::actions;
 use super::evaluator::attribute_tables;
 use super::params::CovarianceFactor;
 use super::result::TreeRow;
@@ -8,7 +9,7 @@ use super::rng::{self, Purpose};
 use super::stand::{Initial, Stand};
 use super::step::{observe_ranges, sub_step, GrowthRule, Mortality, StepContext, SurvivalRule};
 use super::summary::Trace;
-use crate::scenario::Scenario;
+use crate::scenario::{ActionKind, Scenario};
 
 /// Width of the DBH classes of `classes.csv`, cm.
 pub(crate) const CLASS_WIDTH_CM: f64 = 5.0;
@@ -98,36 +99,55 @@ impl<'a> Engine<'a> {
         let residuals = replicate
             .filter(|_| u.growth_residual)
             .map(|r| rng::stream(self.seed, Purpose::GrowthResidual, stand_key, r));
-        let ctx = StepContext {
-            survival: &s.survival_eval,
-            growth: &s.growth_eval,
-            survival_rule: self.survival_rule,
-            growth_rule: self.growth_rule,
-            survival_coefs: &survival_coefs,
-            growth_coefs: &growth_coefs,
-            numeric: &self.numeric,
-            codes: &self.codes,
-            mortality,
-            residuals,
-        };
+        let (mut numeric, mut codes) = (self.numeric.clone(), self.codes.clone());
         stand.reset(&self.init);
         let mut trace = Trace {
             values: Vec::with_capacity(self.steps + 1),
             classes: Vec::with_capacity(self.steps + 1),
             ranges: vec![[f64::INFINITY, f64::NEG_INFINITY]; self.n_ranged()],
+            idle_thinnings: vec![0; s.actions.len()],
         };
         let n_surv = s.survival_eval.ranged.len();
         let track = self.n_ranged() > 0;
+        let whole_records = replicate.is_some() && u.process;
         let mut cumulative = 1.0;
-        self.snapshot(stand, cumulative, 0.0, &mut trace, trees.as_deref_mut());
+        let mut removed = self.apply_actions(
+            0,
+            stand,
+            &mut numeric,
+            &mut codes,
+            whole_records,
+            &mut trace,
+        );
+        self.snapshot(
+            stand,
+            cumulative,
+            removed,
+            0.0,
+            &mut trace,
+            trees.as_deref_mut(),
+        );
         let mut k = 0;
         for step in 1..=self.steps {
+            removed = 0.0;
             for _ in 0..self.sub_steps_per_step {
+                let ctx = StepContext {
+                    survival: &s.survival_eval,
+                    growth: &s.growth_eval,
+                    survival_rule: self.survival_rule,
+                    growth_rule: self.growth_rule,
+                    survival_coefs: &survival_coefs,
+                    growth_coefs: &growth_coefs,
+                    numeric: &numeric,
+                    codes: &codes,
+                    mortality,
+                    residuals,
+                };
                 let (sr, gr) = trace.ranges.split_at_mut(n_surv);
                 let mut observe = |st: &Stand, t: &super::stand::Totals| {
                     if track {
-                        observe_ranges(&s.survival_eval, st, t, &self.numeric, sr);
-                        observe_ranges(&s.growth_eval, st, t, &self.numeric, gr);
+                        observe_ranges(&s.survival_eval, st, t, &numeric, sr);
+                        observe_ranges(&s.growth_eval, st, t, &numeric, gr);
                     }
                 };
                 let r = sub_step(stand, &ctx, k, &mut observe);
@@ -135,17 +155,68 @@ impl<'a> Engine<'a> {
                     cumulative *= r.survived / r.start;
                 }
                 k += 1;
+                removed += self.apply_actions(
+                    k,
+                    stand,
+                    &mut numeric,
+                    &mut codes,
+                    whole_records,
+                    &mut trace,
+                );
             }
             let year = step as f64 * s.step_years;
-            self.snapshot(stand, cumulative, year, &mut trace, trees.as_deref_mut());
+            self.snapshot(
+                stand,
+                cumulative,
+                removed,
+                year,
+                &mut trace,
+                trees.as_deref_mut(),
+            );
         }
         trace
+    }
+
+    /// Apply the actions due at sub-step boundary `at` in file order; returns stems removed.
+    fn apply_actions(
+        &self,
+        at: u64,
+        stand: &mut Stand,
+        numeric: &mut [Vec<f64>],
+        codes: &mut [Vec<u32>],
+        whole_records: bool,
+        trace: &mut Trace,
+    ) -> f64 {
+        let mut removed = 0.0;
+        for (i, a) in self
+            .s
+            .actions
+            .iter()
+            .enumerate()
+            .filter(|(_, a)| a.at == at)
+        {
+            match &a.kind {
+                ActionKind::Thin {
+                    from,
+                    to_stems_per_ha,
+                } => {
+                    let r = actions::thin(stand, *from, *to_stems_per_ha, whole_records);
+                    if r == 0.0 {
+                        trace.idle_thinnings[i] += 1;
+                    }
+                    removed += r;
+                }
+                ActionKind::Set(values) => actions::set(values, numeric, codes),
+            }
+        }
+        removed
     }
 
     fn snapshot(
         &self,
         stand: &Stand,
         cumulative: f64,
+        removed: f64,
         year: f64,
         trace: &mut Trace,
         trees: Option<&mut Vec<TreeRow>>,
@@ -153,7 +224,7 @@ impl<'a> Engine<'a> {
         let t = stand.totals();
         trace
             .values
-            .push([t.stems, cumulative, t.ba, t.qmd, t.sdi(), 0.0, 0.0]);
+            .push([t.stems, cumulative, t.ba, t.qmd, t.sdi(), removed, 0.0]);
         // Truncation is the floor for positive diameters. Records are in descending DBH
         // order, so the first has the largest class and each class is one run.
         let class_of = |d: f64| (d * (1.0 / CLASS_WIDTH_CM)) as usize;

@@ -3,6 +3,7 @@
 //!
 //! Entry point: [`run_scenario`] (or [`run_scenario_with_progress`]).
 
+mod actions;
 mod binomial;
 mod drivers;
 pub mod evaluator;
@@ -150,6 +151,7 @@ pub fn run_scenario_with_progress(
             area_ha: s.area_ha,
             start_age_years: s.start_age_years,
             class_width_cm: CLASS_WIDTH_CM,
+            actions: s.actions.iter().map(|a| a.describe()).collect(),
         },
         years: summaries,
         classes,
@@ -216,6 +218,18 @@ fn warnings(s: &Scenario, traces: &[Trace], years: &[YearSummary]) -> Vec<String
                 path.display(),
                 seen[0],
                 seen[1]
+            ));
+        }
+    }
+    for (i, a) in s.actions.iter().enumerate() {
+        let idle: u32 = traces.iter().map(|t| t.idle_thinnings[i]).sum();
+        if idle > 0 {
+            out.push(format!(
+                "action {} (thin at year {}): the stand was already at or below the target in {idle} of {} replicate{}, so nothing was removed there",
+                i + 1,
+                a.year,
+                traces.len(),
+                if traces.len() == 1 { "" } else { "s" }
             ));
         }
     }

@@ -157,6 +157,8 @@ pub struct Settings {
     pub start_age_years: Option<f64>,
     /// Width of the DBH classes, cm.
     pub class_width_cm: f64,
+    /// Management actions, described in file order.
+    pub actions: Vec<String>,
 }
 
 /// A finished projection.

@@ -12,6 +12,8 @@ pub(crate) struct Trace {
     pub classes: Vec<Vec<f64>>,
     /// (min, max) of each ranged model variable (survival's first, then growth's).
     pub ranges: Vec<[f64; 2]>,
+    /// Per action: 1 when a thinning found the stand at or below its target.
+    pub idle_thinnings: Vec<u32>,
 }
 
 /// Percentile of sorted data by linear interpolation between order statistics (type 7).

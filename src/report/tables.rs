@@ -126,6 +126,7 @@ pub fn run_json(r: &ProjectionResult) -> Vec<u8> {
             "area_ha": s.area_ha,
             "start_age_years": s.start_age_years,
             "dbh_class_width_cm": s.class_width_cm,
+            "actions": s.actions,
             "percentiles": "type 7 (linear interpolation between order statistics)",
             "sd": "n - 1",
         },

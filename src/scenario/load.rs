@@ -5,6 +5,7 @@ use std::path::{Path, PathBuf};
 
 use sha2::{Digest, Sha256};
 
+use super::actions::{self, Action};
 use super::schema::{key_path_at, ScenarioFile, UncertaintySection};
 use super::trees::{read_tree_list, Constant, TreeList};
 use super::{cohort, ScenarioError};
@@ -67,6 +68,8 @@ pub struct Scenario {
     pub trees: TreeList,
     /// Stand area for binomial survival of whole stems.
     pub area_ha: Option<f64>,
+    /// Management actions in file order.
+    pub actions: Vec<Action>,
     /// Input files and their hashes.
     pub inputs: Vec<InputFile>,
     pub(crate) survival_eval: CompiledPredictor,
@@ -276,6 +279,14 @@ impl Scenario {
                 }
             }
         }
+        let actions = actions::validate(
+            &raw.actions,
+            &mut trees,
+            &[&survival.common, &growth.common],
+            raw.horizon_years,
+            sub_step_years,
+            file,
+        )?;
         let compile = |key: &str, path: &Path, c: &ModelCommon| {
             CompiledPredictor::compile(
                 &c.predictor,
@@ -321,6 +332,7 @@ impl Scenario {
             uncertainty,
             trees,
             area_ha: raw.cohort.area_ha,
+            actions,
             inputs,
             survival_eval,
             growth_eval,

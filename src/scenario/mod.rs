@@ -1,16 +1,18 @@
 //! Projection scenarios (TOML, design §5): schema, validation, paths relative to the scenario
 //! file, cohort generation and the tree-list reader.
 
+mod actions;
 mod cohort;
 mod load;
 mod plan;
 pub mod schema;
 mod trees;
 
+pub use actions::{Action, ActionKind, SetValue};
 pub use cohort::quantile_diameters;
 pub use load::{InputFile, LoadedModel, Scenario, Uncertainty};
 pub use plan::{check, CheckReport};
-pub use schema::DbhDistribution;
+pub use schema::{DbhDistribution, ThinFrom};
 pub use trees::{read_tree_list, Attribute, AttributeValues, TreeList};
 
 /// An error in a scenario file or in the inputs it names. Every variant names the file, and

@@ -109,6 +109,14 @@ pub fn check(s: &Scenario) -> Result<CheckReport, crate::Error> {
             "no model term reads stand covariates: the Monte Carlo mean estimates the expected trajectory".to_string()
         },
     ];
+    for (i, a) in s.actions.iter().enumerate() {
+        let when = if a.at == 0 {
+            "before the first sub-step".to_string()
+        } else {
+            format!("after sub-step {}", a.at)
+        };
+        plan.push(format!("action {}: {} ({when})", i + 1, a.describe()));
+    }
     if let Some(a) = s.start_age_years {
         plan.push(format!("ages: {a} at year 0"));
     }

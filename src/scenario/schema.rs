@@ -32,6 +32,43 @@ pub struct ScenarioFile {
     pub uncertainty: UncertaintySection,
     /// The trees at year 0.
     pub cohort: CohortSection,
+    /// Management actions, applied in file order.
+    #[serde(default)]
+    pub actions: Vec<ActionEntry>,
+}
+
+/// One `[[actions]]` entry: a year and exactly one of `thin` or `set`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ActionEntry {
+    /// Years since the start (0 applies before the first sub-step).
+    pub year: f64,
+    /// Thin to a target density.
+    #[serde(default)]
+    pub thin: Option<ThinEntry>,
+    /// Set attributes of every tree.
+    #[serde(default)]
+    pub set: Option<BTreeMap<String, toml::Value>>,
+}
+
+/// `thin = { from = "below", to_stems_per_ha = 700 }`.
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ThinEntry {
+    /// Which end of the diameter distribution goes first.
+    pub from: ThinFrom,
+    /// Stems per hectare to keep at most.
+    pub to_stems_per_ha: f64,
+}
+
+/// Which trees a thinning removes first.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum ThinFrom {
+    /// Smallest diameters first.
+    Below,
+    /// Largest diameters first.
+    Above,
 }
 
 /// `[models]`.

@@ -11,9 +11,9 @@ use super::ScenarioError;
 pub enum AttributeValues {
     /// A numeric attribute.
     Numeric(Vec<f64>),
-    /// A categorical attribute: `codes[i]` indexes `levels` (byte order).
+    /// A categorical attribute: `codes[i]` indexes `levels`.
     Categorical {
-        /// Distinct values in byte order.
+        /// Distinct values in byte order, then levels that `set` actions introduce.
         levels: Vec<String>,
         /// One code per tree.
         codes: Vec<u32>,
