@@ -4,6 +4,7 @@
 
 use std::collections::BTreeMap;
 
+use super::fastmath;
 use crate::data::Units;
 use crate::model::design::CategoricalLevels;
 use crate::model::stored::LinearPredictor;
@@ -310,9 +311,9 @@ fn stand_value(source: Source, cov: &Covariates) -> f64 {
 fn apply_factor(f: &CompiledFactor, cov: &Covariates, out: &mut [f64], how: Combine) {
     let s = f.scale;
     match f.source {
-        Source::Dbh => by_transform(f.transform, out, cov.dbh, s, how),
-        Source::Bal => by_transform(f.transform, out, cov.bal, s, how),
-        Source::RelDbh => by_transform(f.transform, out, cov.dbh, s / cov.qmd, how),
+        Source::Dbh => by_transform(f.transform, out, cov.dbh, s, how, true),
+        Source::Bal => by_transform(f.transform, out, cov.bal, s, how, false),
+        Source::RelDbh => by_transform(f.transform, out, cov.dbh, s / cov.qmd, how, true),
         Source::Ba | Source::Qmd | Source::Stems => {
             let v = f.transform.apply(s * stand_value(f.source, cov));
             match how {
@@ -344,11 +345,14 @@ fn apply_factor(f: &CompiledFactor, cov: &Covariates, out: &mut [f64], how: Comb
     }
 }
 
+/// `diameters`: the values are positive diameters (or ratios of them), so the inlined
+/// logarithm applies.
 #[inline]
-fn by_transform(tr: Transform, out: &mut [f64], xs: &[f64], s: f64, how: Combine) {
+fn by_transform(tr: Transform, out: &mut [f64], xs: &[f64], s: f64, how: Combine, diameters: bool) {
     match tr {
         Transform::Identity => each(out, xs, how, |x| s * x),
         Transform::Power(2) => each(out, xs, how, |x| (s * x) * (s * x)),
+        Transform::Ln if diameters => each(out, xs, how, |x| fastmath::ln_positive(s * x)),
         Transform::Ln => each(out, xs, how, |x| (s * x).ln()),
         Transform::Sqrt => each(out, xs, how, |x| (s * x).sqrt()),
         other => each(out, xs, how, |x| other.apply(s * x)),

@@ -7,6 +7,7 @@ mod actions;
 mod binomial;
 mod drivers;
 pub mod evaluator;
+mod fastmath;
 mod params;
 mod result;
 mod rng;

@@ -3,6 +3,7 @@
 
 use super::binomial;
 use super::evaluator::{CompiledPredictor, Covariates, Source};
+use super::fastmath;
 use super::rng;
 use super::stand::{Stand, Totals};
 use crate::data::Units;
@@ -33,26 +34,34 @@ impl SurvivalRule {
         }
     }
 
-    /// Probability of surviving the sub-step given η.
+    /// Replace each η by the probability of surviving the sub-step.
     ///
     /// # Formula
     /// fixed: `P_L0^(h/L0)`; annualized: `p^h` (L0 = 1); exposure: `exp(−e^η·h)`; with
     /// `outcome = "dead"`, `P_L0 = 1 − g⁻¹(η)`, computed as `g⁻¹(−η)` for the symmetric links
     /// and `exp(−e^η)` for cloglog.
-    #[inline]
-    pub fn probability(&self, eta: f64) -> f64 {
-        if self.interval == IntervalKind::Exposure {
-            return (-eta.exp() * self.h).exp();
+    pub fn probabilities(&self, eta: &mut [f64]) {
+        // Each case is its own loop so that the logistic ones vectorise.
+        match (self.interval, self.outcome, self.link) {
+            (IntervalKind::Exposure, _, _) => {
+                let h = self.h;
+                eta.iter_mut()
+                    .for_each(|e| *e = fastmath::exp(-fastmath::exp(*e) * h));
+                return;
+            }
+            (_, Outcome::Alive, Link::Logit) => eta
+                .iter_mut()
+                .for_each(|e| *e = 1.0 / (1.0 + fastmath::exp(-*e))),
+            (_, Outcome::Dead, Link::Logit) => eta
+                .iter_mut()
+                .for_each(|e| *e = 1.0 / (1.0 + fastmath::exp(*e))),
+            (_, Outcome::Dead, Link::Cloglog) => eta.iter_mut().for_each(|e| *e = (-e.exp()).exp()),
+            (_, Outcome::Alive, link) => eta.iter_mut().for_each(|e| *e = link.inverse(*e)),
+            (_, Outcome::Dead, link) => eta.iter_mut().for_each(|e| *e = link.inverse(-*e)),
         }
-        let p = match (self.outcome, self.link) {
-            (Outcome::Alive, link) => link.inverse(eta),
-            (Outcome::Dead, Link::Cloglog) => (-eta.exp()).exp(),
-            (Outcome::Dead, link) => link.inverse(-eta),
-        };
-        if self.exponent == 1.0 {
-            p
-        } else {
-            p.powf(self.exponent)
+        if self.exponent != 1.0 {
+            let k = self.exponent;
+            eta.iter_mut().for_each(|p| *p = p.powf(k));
         }
     }
 }
@@ -151,19 +160,20 @@ pub(crate) fn sub_step(
         codes: ctx.codes,
     };
     ctx.survival.eval(ctx.survival_coefs, &cov, eta, tmp);
-    let rule = ctx.survival_rule;
+    ctx.survival_rule.probabilities(eta);
+    let probability = &*eta;
     let mut survived = 0.0;
     match ctx.mortality {
         Mortality::Expected => {
-            for (e, &x) in stems.iter_mut().zip(eta.iter()) {
-                *e *= rule.probability(x);
+            for (e, &p) in stems.iter_mut().zip(probability) {
+                *e *= p;
                 survived += *e;
             }
         }
         Mortality::Bernoulli(stream) => {
             let s = rng::absorb(stream, k);
-            for ((e, &x), &t) in stems.iter_mut().zip(eta.iter()).zip(tree.iter()) {
-                if rng::uniform(rng::absorb(s, t as u64)) >= rule.probability(x) {
+            for ((e, &p), &t) in stems.iter_mut().zip(probability).zip(tree.iter()) {
+                if rng::uniform(rng::absorb(s, t as u64)) >= p {
                     *e = 0.0;
                 }
                 survived += *e;
@@ -171,10 +181,10 @@ pub(crate) fn sub_step(
         }
         Mortality::Binomial(stream, area) => {
             let s = rng::absorb(stream, k);
-            for ((e, &x), &t) in stems.iter_mut().zip(eta.iter()).zip(tree.iter()) {
+            for ((e, &p), &t) in stems.iter_mut().zip(probability).zip(tree.iter()) {
                 let n = (*e * area).round() as u64;
                 let u = rng::uniform(rng::absorb(s, t as u64));
-                let deaths = binomial::inverse_cdf(n, 1.0 - rule.probability(x), u);
+                let deaths = binomial::inverse_cdf(n, 1.0 - p, u);
                 if deaths > 0 {
                     *e *= (n - deaths) as f64 / n as f64;
                 }
@@ -238,7 +248,7 @@ fn grow(stand: &mut Stand, ctx: &StepContext, totals: &Totals, k: u64) {
         }
         _ => {
             for ((d, &x), &z) in dbh.iter_mut().zip(eta.iter()).zip(tmp.iter()) {
-                *d = (*d * *d + (x + z).exp() * g.scale).sqrt();
+                *d = (*d * *d + fastmath::exp(x + z) * g.scale).sqrt();
             }
         }
     }
