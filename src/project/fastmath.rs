@@ -4,7 +4,7 @@
 
 const LOG2_E: f64 = std::f64::consts::LOG2_E;
 /// ln 2 split so that `k · LN2_HI` is exact for |k| < 2¹¹ (Cody & Waite 1980).
-const LN2_HI: f64 = 0.693_147_180_369_123_816_49;
+const LN2_HI: f64 = 0.693_147_180_369_123_8;
 const LN2_LO: f64 = 1.908_214_929_270_587_7e-10;
 /// 1.5 · 2⁵²: adding it rounds to the nearest integer and leaves that integer in the low
 /// bits of the result.
