@@ -2,8 +2,12 @@
 
 use statrs::distribution::{ContinuousCDF, LogNormal, Normal, Uniform, Weibull};
 
-use super::schema::DbhDistribution;
-use super::trees::TreeList;
+use std::path::Path;
+
+use super::load::InputFile;
+use super::schema::{DbhDistribution, ScenarioFile};
+use super::trees::{read_tree_list, TreeList};
+use super::ScenarioError;
 
 /// Diameters at the quantiles `(i − ½)/n`, i = 1..n, of `dist`, in increasing order.
 ///
@@ -84,6 +88,69 @@ pub(crate) fn cohort(dbh_cm: Vec<f64>, stems_per_ha: f64) -> TreeList {
         stems_per_ha: vec![stems_per_ha / n as f64; n],
         attributes: Vec::new(),
     }
+}
+
+/// The year-0 trees of a scenario: its tree list, or a cohort generated from `[cohort]`.
+pub(crate) fn trees_of(
+    raw: &ScenarioFile,
+    base: &Path,
+    file: &str,
+    inputs: &mut Vec<InputFile>,
+) -> Result<TreeList, ScenarioError> {
+    let err = |key: &str, message: String| ScenarioError::Key {
+        file: file.to_string(),
+        key: key.to_string(),
+        message,
+    };
+    let c = &raw.cohort;
+    if let Some(rel) = &c.trees {
+        for (key, present) in [
+            ("stems_per_ha", c.stems_per_ha.is_some()),
+            ("records", c.records.is_some()),
+            ("dbh", c.dbh.is_some()),
+        ] {
+            if present {
+                return Err(err(
+                    &format!("cohort.{key}"),
+                    "belongs to a generated cohort; with `trees` the tree list gives the trees"
+                        .into(),
+                ));
+            }
+        }
+        let path = base.join(rel);
+        let shown = path.display().to_string();
+        let bytes = std::fs::read(&path)
+            .map_err(|e| err("cohort.trees", format!("{shown} cannot be read: {e}")))?;
+        let list = read_tree_list(&path, &shown)?;
+        inputs.push(InputFile {
+            role: "trees".into(),
+            path,
+            sha256: super::load::sha256_hex(&bytes),
+        });
+        return Ok(list);
+    }
+    let stems = c
+        .stems_per_ha
+        .ok_or_else(|| err("cohort.stems_per_ha", "missing (or give `trees`)".into()))?;
+    if !(stems > 0.0 && stems.is_finite()) {
+        return Err(err(
+            "cohort.stems_per_ha",
+            format!("{stems} is not a positive number"),
+        ));
+    }
+    let records = match c.records {
+        None => return Err(err("cohort.records", "missing".into())),
+        Some(r) if r >= 1 && r <= u32::MAX as i64 => r as usize,
+        Some(r) => {
+            return Err(err(
+                "cohort.records",
+                format!("{r} is not a positive whole number"),
+            ))
+        }
+    };
+    let dist = c.dbh.as_ref().ok_or_else(|| err("cohort.dbh", "missing (a distribution such as { distribution = \"lognormal\", median = 8, gsd = 1.5 })".into()))?;
+    let dbh = quantile_diameters(dist, records).map_err(|m| err("cohort.dbh", m))?;
+    Ok(cohort(dbh, stems))
 }
 
 #[cfg(test)]

@@ -7,7 +7,7 @@ use sha2::{Digest, Sha256};
 
 use super::actions::{self, Action};
 use super::schema::{key_path_at, ScenarioFile, UncertaintySection};
-use super::trees::{read_tree_list, Constant, TreeList};
+use super::trees::{Constant, TreeList};
 use super::{cohort, ScenarioError};
 use crate::model::file::{GrowthResponse, ModelFile};
 use crate::model::stored::{GrowthModel, Model, ModelCommon, SurvivalModel};
@@ -76,7 +76,7 @@ pub struct Scenario {
     pub(crate) growth_eval: CompiledPredictor,
 }
 
-fn sha256_hex(bytes: &[u8]) -> String {
+pub(crate) fn sha256_hex(bytes: &[u8]) -> String {
     Sha256::digest(bytes)
         .iter()
         .map(|b| format!("{b:02x}"))
@@ -241,7 +241,7 @@ impl Scenario {
                 }
             }
         }
-        let mut trees = trees_of(&raw, base, file, &mut inputs)?;
+        let mut trees = cohort::trees_of(&raw, base, file, &mut inputs)?;
         for (name, value) in &raw.cohort.attributes {
             let key = format!("cohort.attributes.{name}");
             if matches!(name.as_str(), "dbh" | "stand" | "tree" | "expansion")
@@ -357,66 +357,4 @@ fn key_model(e: &CompileError) -> &'static str {
 fn is_multiple(a: f64, b: f64) -> bool {
     let k = (a / b).round();
     k >= 1.0 && (a - k * b).abs() <= 1e-9 * a.abs().max(b.abs())
-}
-
-fn trees_of(
-    raw: &ScenarioFile,
-    base: &Path,
-    file: &str,
-    inputs: &mut Vec<InputFile>,
-) -> Result<TreeList, ScenarioError> {
-    let err = |key: &str, message: String| ScenarioError::Key {
-        file: file.to_string(),
-        key: key.to_string(),
-        message,
-    };
-    let c = &raw.cohort;
-    if let Some(rel) = &c.trees {
-        for (key, present) in [
-            ("stems_per_ha", c.stems_per_ha.is_some()),
-            ("records", c.records.is_some()),
-            ("dbh", c.dbh.is_some()),
-        ] {
-            if present {
-                return Err(err(
-                    &format!("cohort.{key}"),
-                    "belongs to a generated cohort; with `trees` the tree list gives the trees"
-                        .into(),
-                ));
-            }
-        }
-        let path = base.join(rel);
-        let shown = path.display().to_string();
-        let bytes = std::fs::read(&path)
-            .map_err(|e| err("cohort.trees", format!("{shown} cannot be read: {e}")))?;
-        let list = read_tree_list(&path, &shown)?;
-        inputs.push(InputFile {
-            role: "trees".into(),
-            path,
-            sha256: sha256_hex(&bytes),
-        });
-        return Ok(list);
-    }
-    let stems = c
-        .stems_per_ha
-        .ok_or_else(|| err("cohort.stems_per_ha", "missing (or give `trees`)".into()))?;
-    if !(stems > 0.0 && stems.is_finite()) {
-        return Err(err(
-            "cohort.stems_per_ha",
-            format!("{stems} is not a positive number"),
-        ));
-    }
-    let records = match c.records {
-        None => return Err(err("cohort.records", "missing".into())),
-        Some(r) if r >= 1 && r <= u32::MAX as i64 => r as usize,
-        Some(r) => {
-            return Err(err(
-                "cohort.records",
-                format!("{r} is not a positive whole number"),
-            ))
-        }
-    };
-    let dist = c.dbh.as_ref().ok_or_else(|| err("cohort.dbh", "missing (a distribution such as { distribution = \"lognormal\", median = 8, gsd = 1.5 })".into()))?;
-    let dbh = cohort::quantile_diameters(dist, records).map_err(|m| err("cohort.dbh", m))?;
-    Ok(cohort::cohort(dbh, stems))
 }
