@@ -8,6 +8,7 @@ pub mod glm;
 pub mod growth;
 pub mod linalg;
 pub mod link;
+mod lsq;
 pub mod separation;
 pub mod stored;
 pub mod survival;
