@@ -6,6 +6,7 @@
 //! [`scenario`] reads projection scenarios, [`project`] runs them, [`report`] writes results.
 
 pub mod data;
+pub mod demo;
 pub mod error;
 pub mod model;
 pub mod project;
