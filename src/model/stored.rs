@@ -130,7 +130,7 @@ impl Model {
         };
         let units = match &raw.units {
             None => Units::Metric,
-            Some(u) => u.parse().map_err(|m: String| err("units", m))?,
+            Some(u) => u.parse().map_err(|m: crate::data::UnknownUnits| err("units", m.to_string()))?,
         };
         if let Some(p) = raw.period_years {
             if !(p > 0.0 && p.is_finite()) {
