@@ -5,6 +5,7 @@ pub mod diagnostics;
 pub mod file;
 pub mod glm;
 pub mod growth;
+pub mod irls;
 pub mod linalg;
 pub mod link;
 pub mod separation;
@@ -44,7 +45,9 @@ pub enum ModelError {
         terms: Vec<String>,
     },
     /// The iterative fit did not converge (a runtime failure, exit code 1).
-    #[error("the fit did not converge in {iterations} iterations (last deviance {deviance}); {hint}")]
+    #[error(
+        "the fit did not converge in {iterations} iterations (last deviance {deviance}); {hint}"
+    )]
     NotConverged {
         /// Iterations performed.
         iterations: usize,
