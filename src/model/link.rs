@@ -170,10 +170,8 @@ mod tests {
         for link in LINKS {
             for mu in [1e-6, 0.01, 0.3, 0.5, 0.77, 0.99] {
                 let back = link.inverse(link.link(mu));
-                assert!(
-                    (back - mu).abs() < 1e-12 * mu.max(1e-3),
-                    "{link}: {mu} -> {back}"
-                );
+                // statrs' normal quantile is accurate to about 1e-8 relative (4e-9 at 0.01).
+                assert!((back - mu).abs() < 1e-8 * mu, "{link}: {mu} -> {back}");
             }
         }
     }
