@@ -6,6 +6,7 @@ pub mod diagnostics;
 pub mod file;
 pub mod glm;
 pub mod growth;
+pub mod irls;
 pub mod linalg;
 pub mod link;
 mod lsq;

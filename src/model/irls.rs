@@ -1,0 +1,193 @@
+//! The iteratively reweighted least squares engine behind [`crate::model::glm::fit_glm`].
+//!
+//! Each iteration is one pass over the rows: the linear predictor, μ, the deviance and the
+//! upper triangle of XᵀWX and XᵀWz are accumulated together from one contiguous row at a time,
+//! with no n-sized temporaries. The design matrix is row-major and contiguous.
+
+use super::linalg::SpdFactor;
+use super::link::{variance, Link};
+use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
+
+/// Step-halving gives up after this many halvings and takes the step as it is.
+const MAX_HALVINGS: usize = 30;
+
+/// The response in proportion form: `y` = successes / trials and `wt` = prior weight × trials.
+#[derive(Debug, Clone)]
+pub struct Response {
+    /// Observed proportion of successes per row, in [0, 1].
+    pub y: Vec<f64>,
+    /// Total weight of the row (prior weight × number of trials); 0 leaves the row out.
+    pub wt: Vec<f64>,
+}
+
+/// What one pass over the rows produces.
+#[derive(Debug, Clone)]
+pub struct Pass {
+    /// The binomial deviance at the coefficients of the pass.
+    pub deviance: f64,
+    /// XᵀWX (full p×p, row-major) with the working weights of the pass.
+    pub xtwx: Vec<f64>,
+    /// XᵀWz with the working response of the pass (offset removed).
+    pub xtwz: Vec<f64>,
+    /// Smallest and largest fitted μ among rows with non-zero weight.
+    pub mu_range: (f64, f64),
+}
+
+/// The outcome of the IRLS loop.
+#[derive(Debug, Clone)]
+pub struct IrlsResult {
+    /// Estimated coefficients.
+    pub beta: Vec<f64>,
+    /// The pass at the estimate: deviance and Fisher information XᵀWX there.
+    pub last: Pass,
+    /// Number of weighted least-squares solves.
+    pub iterations: usize,
+    /// Whether both stopping rules were met.
+    pub converged: bool,
+}
+
+/// Why IRLS could not continue.
+#[derive(Debug, Clone, PartialEq)]
+pub enum IrlsError {
+    /// XᵀWX is not positive definite at some iteration.
+    Singular,
+}
+
+/// The unit binomial deviance 2[y ln(y/μ) + (1−y) ln((1−y)/(1−μ))], with 0·ln 0 = 0.
+#[inline]
+pub fn unit_deviance(y: f64, mu: f64) -> f64 {
+    if y == 1.0 {
+        -2.0 * mu.ln()
+    } else if y == 0.0 {
+        -2.0 * (-mu).ln_1p()
+    } else {
+        2.0 * (y * (y / mu).ln() + (1.0 - y) * ((1.0 - y) / (1.0 - mu)).ln())
+    }
+}
+
+/// A row-major n×p design with its response and offset.
+#[derive(Debug, Clone, Copy)]
+pub struct Problem<'a> {
+    /// Row-major n×p design matrix.
+    pub x: &'a [f64],
+    /// Number of columns.
+    pub p: usize,
+    /// Response in proportion form.
+    pub response: &'a Response,
+    /// Offset per row, if any.
+    pub offset: Option<&'a [f64]>,
+    /// The link.
+    pub link: Link,
+}
+
+impl Problem<'_> {
+    /// One pass at `beta`, or at the starting values μ = (wt·y + ½)/(wt + 1) when `beta` is None.
+    pub fn pass(&self, beta: Option<&[f64]>) -> Pass {
+        let p = self.p;
+        let mut xtwx = vec![0.0; p * p];
+        let mut xtwz = vec![0.0; p];
+        let mut deviance = 0.0;
+        let mut mu_range = (f64::INFINITY, f64::NEG_INFINITY);
+        let rows = self.x.chunks_exact(p);
+        for (i, xi) in rows.enumerate() {
+            let wt = self.response.wt[i];
+            if wt == 0.0 {
+                continue;
+            }
+            let y = self.response.y[i];
+            let off = self.offset.map_or(0.0, |o| o[i]);
+            let (eta, mu, d) = match beta {
+                Some(b) => {
+                    let eta = xi.iter().zip(b).map(|(a, c)| a * c).sum::<f64>() + off;
+                    let (mu, d) = self.link.inverse_and_derivative(eta);
+                    (eta, mu, d)
+                }
+                None => {
+                    let mu = (wt * y + 0.5) / (wt + 1.0);
+                    let eta = self.link.link(mu);
+                    (eta, mu, self.link.mu_eta(eta))
+                }
+            };
+            mu_range = (mu_range.0.min(mu), mu_range.1.max(mu));
+            deviance += wt * unit_deviance(y, mu);
+            let w = wt * d * d / variance(mu);
+            let z = eta - off + (y - mu) / d;
+            accumulate(&mut xtwx, &mut xtwz, xi, w, w * z);
+        }
+        for j in 0..p {
+            for k in j + 1..p {
+                xtwx[j * p + k] = xtwx[k * p + j];
+            }
+        }
+        Pass {
+            deviance,
+            xtwx,
+            xtwz,
+            mu_range,
+        }
+    }
+
+    /// Runs IRLS from the pass at the starting values until both stopping rules of design §4
+    /// hold or [`MAX_ITERATIONS`] solves have been made, halving the step whenever the deviance
+    /// increases.
+    pub fn run(&self, start: Pass) -> Result<IrlsResult, IrlsError> {
+        let mut current = start;
+        let mut beta_old: Option<Vec<f64>> = None;
+        let mut iterations = 0;
+        let mut converged = false;
+        while iterations < MAX_ITERATIONS {
+            let factor = SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular)?;
+            let mut beta = factor.solve(&current.xtwz);
+            iterations += 1;
+            let mut next = self.pass(Some(&beta));
+            if let Some(old) = &beta_old {
+                let limit = current.deviance + 1e-12 * current.deviance.abs().max(1.0);
+                let mut halvings = 0;
+                while !(next.deviance.is_finite() && next.deviance <= limit)
+                    && halvings < MAX_HALVINGS
+                {
+                    for (b, o) in beta.iter_mut().zip(old) {
+                        *b = 0.5 * (*b + o);
+                    }
+                    next = self.pass(Some(&beta));
+                    halvings += 1;
+                }
+            }
+            converged = beta_old.as_ref().is_some_and(|old| {
+                let dev_change =
+                    (next.deviance - current.deviance).abs() / (next.deviance.abs() + 0.1);
+                let coef_change = beta
+                    .iter()
+                    .zip(old)
+                    .map(|(b, o)| (b - o).abs() / (b.abs() + 0.1))
+                    .fold(0.0, f64::max);
+                dev_change < IRLS_DEVIANCE_RTOL && coef_change < IRLS_COEF_RTOL
+            });
+            current = next;
+            beta_old = Some(beta);
+            if converged {
+                break;
+            }
+        }
+        Ok(IrlsResult {
+            beta: beta_old.unwrap_or_default(),
+            last: current,
+            iterations,
+            converged,
+        })
+    }
+}
+
+/// Adds w·xxᵀ (lower triangle) and wz·x for one row.
+#[inline]
+fn accumulate(xtwx: &mut [f64], xtwz: &mut [f64], xi: &[f64], w: f64, wz: f64) {
+    let p = xi.len();
+    for (j, &xj) in xi.iter().enumerate() {
+        let wxj = w * xj;
+        xtwz[j] += wz * xj;
+        let row = &mut xtwx[j * p..j * p + j + 1];
+        for (a, &xk) in row.iter_mut().zip(&xi[..=j]) {
+            *a += wxj * xk;
+        }
+    }
+}
