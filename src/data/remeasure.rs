@@ -145,8 +145,9 @@ pub struct Remeasurement {
 /// - [`DataError::Io`] when the file cannot be read; [`DataError::File`] and
 ///   [`DataError::Record`] for an empty file, duplicate column names or ragged rows.
 /// - [`DataError::MissingColumn`] for a required column the file lacks.
-/// - [`DataError::File`] when a derived covariate that would be computed is also a file
-///   column (use `--use-column NAME` or rename it), or when no record is left.
+/// - [`DataError::Cell`] (line 1, the header) when a derived covariate that would be computed
+///   is also a file column (use `--use-column NAME` or rename it); [`DataError::File`] when no
+///   record is left.
 /// - [`DataError::Cell`] for a `dbh` (or `dbh2` in a growth fit) that is not a positive
 ///   number, a non-positive `years` or `expansion`, an empty stand, and a status that is
 ///   empty or not understood.
