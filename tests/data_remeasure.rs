@@ -272,6 +272,7 @@ fn derived_covariate_name_clash() {
         "{:?}",
         r.warnings
     );
+    assert_eq!(r.field_covariates, [DerivedCovariate::Bal]);
 }
 
 #[test]

@@ -159,3 +159,18 @@ fn streaming_rejects_a_stand_that_comes_back() {
     );
     assert!(stream.next().is_none());
 }
+
+#[test]
+fn streaming_a_header_only_file_is_an_error() {
+    let mut stream = TreeListStream::from_reader(
+        "stand,tree,dbh,expansion\n".as_bytes(),
+        "trees.csv",
+        &TreeListSpec::default(),
+    )
+    .unwrap();
+    let err = stream.next().unwrap().unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        "trees.csv: the file has a header but no records"
+    );
+}

@@ -8,6 +8,7 @@ mod frame;
 mod remeasure;
 mod status;
 mod table;
+mod tree_stream;
 mod trees;
 mod units;
 
@@ -19,7 +20,8 @@ pub use remeasure::{
 };
 pub use status::{Outcome, Status, UnknownStatus, ACCEPTED_STATUS};
 pub use table::{parse_table, read_table, sha256_hex, Table, TableOptions};
-pub use trees::{read_single_stand, read_tree_lists, TreeList, TreeListSpec, TreeListStream};
+pub use tree_stream::TreeListStream;
+pub use trees::{read_single_stand, read_tree_lists, TreeList, TreeListSpec};
 pub use units::{
     qmd_from_basal_area, reineke_sdi, Units, UnknownUnits, CM_PER_INCH, HA_PER_ACRE,
     REINEKE_EXPONENT,

@@ -133,6 +133,9 @@ pub struct Remeasurement {
     pub counts: RemeasureCounts,
     /// Things the user should know (e.g. a derived covariate taken from a column).
     pub warnings: Vec<String>,
+    /// Derived covariates taken from the file's column of the same name rather than computed
+    /// (projections recompute them from the tree list).
+    pub field_covariates: Vec<DerivedCovariate>,
     /// Every column name of the file.
     pub header: Vec<String>,
     /// SHA-256 of the file, 64 lowercase hex digits.
@@ -332,6 +335,7 @@ pub fn load_remeasurement_bytes(
         alive,
         counts,
         warnings,
+        field_covariates: plan.from_field.clone(),
         header,
         sha256,
     })
