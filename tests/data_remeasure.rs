@@ -300,3 +300,24 @@ fn nothing_left_to_fit() {
     let err = load("dbh,alive\n10,cut\n", &survival(&[], &[])).unwrap_err();
     assert!(err.to_string().contains("no records left to fit"), "{err}");
 }
+
+#[test]
+fn text_only_on_excluded_rows_is_numeric_again() {
+    // "NA" in dbh2 of a dead tree makes the column text in the file, but not among the
+    // records of the growth fit.
+    let text = "dbh,dbh2,alive\n10,11.5,1\n12,NA,0\n14,15,1\n";
+    let r = load(text, &spec_growth()).unwrap();
+    assert_eq!(r.counts.dead, 1);
+    assert_eq!(r.frame.numeric("dbh2").unwrap(), &[11.5, 15.0]);
+    // A declared categorical column stays text.
+    let spec = RemeasureSpec {
+        categorical: vec!["plot".into()],
+        required: vec![Required::new("plot", "term `plot`")],
+        ..spec_growth()
+    };
+    let r = load("dbh,dbh2,plot\n10,11,1\n12,13,2\n", &spec).unwrap();
+    assert!(matches!(
+        r.frame.column("plot"),
+        Some(FrameColumn::Text { .. })
+    ));
+}

@@ -242,7 +242,7 @@ pub fn load_remeasurement_bytes(
         categorical.push(names.stand.clone());
     }
     let options = TableOptions {
-        categorical,
+        categorical: categorical.clone(),
         columns: Some(read),
     };
     let Table {
@@ -320,6 +320,15 @@ pub fn load_remeasurement_bytes(
             .collect()
     });
     frame.retain(&keep);
+    // A column that was text only because of rows that were left out (say "NA" in `dbh2` of
+    // dead trees) is numeric again.
+    for (name, column) in frame.columns.iter_mut() {
+        if !categorical.contains(name) {
+            if let Some(values) = column.to_numeric() {
+                *column = FrameColumn::Numeric(values);
+            }
+        }
+    }
     counts.records = frame.len();
     if frame.is_empty() {
         return Err(DataError::file(
