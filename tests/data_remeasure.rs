@@ -321,3 +321,17 @@ fn text_only_on_excluded_rows_is_numeric_again() {
         Some(FrameColumn::Text { .. })
     ));
 }
+
+#[test]
+fn computed_covariates_need_a_dbh_column() {
+    let spec = RemeasureSpec {
+        purpose: Purpose::Counts,
+        ..survival(&[], &[DerivedCovariate::Qmd])
+    };
+    let err = load("stand,expansion,diameter\nA,10,12\n", &spec).unwrap_err();
+    assert!(
+        err.to_string()
+            .contains("no column \"dbh\" (derived covariates qmd need diameters)"),
+        "{err}"
+    );
+}

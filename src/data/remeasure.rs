@@ -203,6 +203,11 @@ pub fn load_remeasurement_bytes(
         want(d.name());
     }
     if plan.computes() {
+        if !has(&names.dbh) {
+            let which: Vec<&str> = plan.compute.iter().map(|d| d.name()).collect();
+            let why = format!("derived covariates {} need diameters", which.join(", "));
+            return Err(missing(&names.dbh, &why));
+        }
         want(&names.stand);
         want(&names.expansion);
     }
