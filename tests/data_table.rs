@@ -117,3 +117,37 @@ fn sha256_of_known_bytes() {
         "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
     );
 }
+
+#[test]
+fn byte_order_mark_and_crlf() {
+    let t = parse("\u{feff}a,b\r\n1,x\r\n2,y\r\n").unwrap();
+    assert_eq!(t.header, ["a", "b"]);
+    assert_eq!(t.frame.numeric("a").unwrap(), &[1.0, 2.0]);
+    assert_eq!(t.frame.lines, [2, 3]);
+}
+
+#[test]
+fn crlf_lines() {
+    assert_eq!(parse("a,b\r\n1,x\r\n2,y\r\n").unwrap().frame.lines, [2, 3]);
+}
+
+#[test]
+fn bom_lines() {
+    assert_eq!(
+        parse("\u{feff}a,b\n1,x\n2,y\n").unwrap().frame.lines,
+        [2, 3]
+    );
+}
+
+#[test]
+fn crlf_with_blank_lines_and_quoted_newlines() {
+    // Lines: 1 header, 2 blank, 3–4 one record with a quoted line break, 5 record, 6 blank.
+    let t = parse("a,b\r\n\r\n1,\"x\r\ny\"\r\n2,\"z\"\r\n\r\n").unwrap();
+    assert_eq!(t.frame.lines, [3, 5]);
+    match t.frame.column("b").unwrap() {
+        FrameColumn::Text { levels, .. } => assert_eq!(levels, &["x\r\ny", "z"]),
+        other => panic!("{other:?}"),
+    }
+    let err = parse("a,b\r\n1,2\r\n3\r\n").unwrap_err().to_string();
+    assert_eq!(err, "t.csv: line 3: 1 field, but the header has 2");
+}

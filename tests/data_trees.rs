@@ -174,3 +174,10 @@ fn streaming_a_header_only_file_is_an_error() {
         "trees.csv: the file has a header but no records"
     );
 }
+
+#[test]
+fn crlf_line_numbers_in_messages() {
+    let (_dir, path) = file("tree,dbh,expansion\r\n1,10,25\r\n\r\n2,-1,25\r\n");
+    let err = read_single_stand(&path, &TreeListSpec::default()).unwrap_err();
+    assert_cell(err, 4, "dbh", "-1 is not a positive diameter");
+}

@@ -8,7 +8,7 @@ use std::path::Path;
 use super::columns::{parse_number, trim_cell, ColumnBuilder};
 use super::frame::FrameColumn;
 use super::remeasure::ColumnNames;
-use super::table::{check_width, csv_error, csv_reader, read_header};
+use super::table::{csv_reader, next_record, read_header};
 use super::DataError;
 
 /// What to read from a tree list.
@@ -291,18 +291,11 @@ pub(super) fn line_of(record: &csv::ByteRecord) -> u64 {
     record.position().map_or(0, |p| p.line())
 }
 
-/// Read the next record and check its width; false at the end.
+/// Read the next non-blank record and check its width; false at the end.
 pub(super) fn read_record<R: Read>(
     reader: &mut csv::Reader<R>,
     record: &mut csv::ByteRecord,
     layout: &Layout,
 ) -> Result<bool, DataError> {
-    if !reader
-        .read_byte_record(record)
-        .map_err(|e| csv_error(&layout.source, &e))?
-    {
-        return Ok(false);
-    }
-    check_width(&layout.source, line_of(record), record.len(), layout.width)?;
-    Ok(true)
+    Ok(next_record(reader, record, &layout.source, layout.width)?.is_some())
 }
