@@ -162,6 +162,23 @@ pub fn load_remeasurement(path: &Path, spec: &RemeasureSpec) -> Result<Remeasure
 
 /// [`load_remeasurement`] on CSV bytes already in memory, named `source` in messages.
 ///
+/// # Examples
+/// ```
+/// use stemcast::data::{load_remeasurement_bytes, DerivedCovariate, RemeasureSpec, Required};
+/// let csv = b"stand,dbh,alive,expansion\nA,10,1,100\nA,30,cut,100\nA,,1,100\n";
+/// let spec = RemeasureSpec {
+///     required: vec![Required::new("dbh", "term `dbh`")],
+///     derived: vec![DerivedCovariate::Bal],
+///     ..RemeasureSpec::default()
+/// };
+/// let r = load_remeasurement_bytes(csv, "remeasure.csv", &spec).unwrap();
+/// assert_eq!((r.counts.records, r.counts.censored, r.counts.ingrowth), (1, 1, 1));
+/// assert_eq!(r.alive.as_deref(), Some(&[true][..]));
+/// // The cut 30 cm tree still counts as larger: π/40000 · 30² · 100 m²/ha.
+/// let bal = r.frame.numeric("bal").unwrap()[0];
+/// assert!((bal - 7.0685835).abs() < 1e-6);
+/// ```
+///
 /// # Errors
 /// As [`load_remeasurement`].
 pub fn load_remeasurement_bytes(
