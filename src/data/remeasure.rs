@@ -2,11 +2,10 @@
 
 use std::path::Path;
 
-use super::columns::EMPTY_CODE;
 use super::covariates::DerivedCovariate;
 use super::derive::{add_derived, check_positive, StandPlan};
 use super::frame::{Frame, FrameColumn};
-use super::status::{Outcome, Status, ACCEPTED_STATUS};
+use super::status::{status_per_row, Outcome, Status};
 use super::table::{parse_table, read_bytes, Table, TableOptions};
 use super::units::Units;
 use super::DataError;
@@ -289,7 +288,12 @@ pub fn load_remeasurement_bytes(
     }
 
     let status = if status_used {
-        Some(statuses(&frame, &names.status, spec.one_means, &has_first)?)
+        Some(status_per_row(
+            &frame,
+            &names.status,
+            spec.one_means,
+            &has_first,
+        )?)
     } else {
         None
     };
@@ -370,37 +374,4 @@ pub fn load_remeasurement_bytes(
         header,
         sha256,
     })
-}
-
-/// The status of every row with a first diameter (`Alive` as a placeholder elsewhere). Each
-/// distinct value is parsed once.
-fn statuses(
-    frame: &Frame,
-    column: &str,
-    one_means: Outcome,
-    has_first: &[bool],
-) -> Result<Vec<Status>, DataError> {
-    let Some(FrameColumn::Text { levels, codes, .. }) = frame.columns.get(column) else {
-        return Ok(vec![Status::Alive; frame.len()]);
-    };
-    let parsed: Vec<_> = levels.iter().map(|l| Status::parse(l, one_means)).collect();
-    let mut out = Vec::with_capacity(codes.len());
-    for (i, &code) in codes.iter().enumerate() {
-        if !has_first[i] {
-            out.push(Status::Alive);
-            continue;
-        }
-        let cell_error =
-            |message: String| DataError::cell(&frame.source, frame.lines[i], column, message);
-        if code == EMPTY_CODE {
-            return Err(cell_error(format!(
-                "the status is empty on a row with a first diameter; use {ACCEPTED_STATUS}"
-            )));
-        }
-        match &parsed[code as usize] {
-            Ok(st) => out.push(*st),
-            Err(e) => return Err(cell_error(e.to_string())),
-        }
-    }
-    Ok(out)
 }
