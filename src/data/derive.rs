@@ -57,10 +57,12 @@ impl StandPlan {
                 ));
                 plan.from_field.push(d);
             } else if has(name) {
-                return Err(DataError::file(
+                return Err(DataError::cell(
                     source,
+                    1,
+                    name,
                     format!(
-                        "column \"{name}\" has the name of a derived covariate that stemcast computes per stand from \"{}\" and \"{}\"; use --use-column {name} to use the column's values (projections recompute {name}), or rename the column",
+                        "{name} is also a derived covariate that stemcast computes per stand from \"{}\" and \"{}\"; use --use-column {name} to use the column's values (projections recompute {name}), or rename the column",
                         names.stand, names.expansion
                     ),
                 ));

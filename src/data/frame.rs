@@ -111,6 +111,39 @@ impl FrameColumn {
         }
     }
 
+    /// The cells as numbers when every non-empty cell is one (a numeric column, or a text
+    /// column without `first_text`); `None` otherwise.
+    pub fn to_numeric(&self) -> Option<Vec<f64>> {
+        match self {
+            FrameColumn::Numeric(values) => Some(values.clone()),
+            FrameColumn::Text {
+                levels,
+                codes,
+                first_text,
+            } => {
+                if first_text.is_some() {
+                    return None;
+                }
+                let numbers = levels
+                    .iter()
+                    .map(|l| parse_number(l.as_bytes()))
+                    .collect::<Option<Vec<f64>>>()?;
+                Some(
+                    codes
+                        .iter()
+                        .map(|&c| {
+                            if c == EMPTY_CODE {
+                                f64::NAN
+                            } else {
+                                numbers[c as usize]
+                            }
+                        })
+                        .collect(),
+                )
+            }
+        }
+    }
+
     /// Keep the cells where `keep` is true. Text levels that no kept cell uses are dropped and
     /// `first_text` is recomputed over the kept cells (`lines` are the kept cells' lines).
     pub fn retain(&mut self, keep: &[bool], lines: &[u64]) {

@@ -8,6 +8,7 @@ mod frame;
 mod remeasure;
 mod status;
 mod table;
+mod tree_stream;
 mod trees;
 mod units;
 
@@ -19,8 +20,12 @@ pub use remeasure::{
 };
 pub use status::{Outcome, Status, UnknownStatus, ACCEPTED_STATUS};
 pub use table::{parse_table, read_table, sha256_hex, Table, TableOptions};
-pub use trees::{read_single_stand, read_tree_lists, TreeList, TreeListSpec, TreeListStream};
-pub use units::{reineke_sdi, Units, UnknownUnits, CM_PER_INCH, HA_PER_ACRE, REINEKE_EXPONENT};
+pub use tree_stream::TreeListStream;
+pub use trees::{read_single_stand, read_tree_lists, TreeList, TreeListSpec};
+pub use units::{
+    qmd_from_basal_area, reineke_sdi, Units, UnknownUnits, CM_PER_INCH, HA_PER_ACRE,
+    REINEKE_EXPONENT,
+};
 
 /// An error in input data. Every variant names the file; cell errors also name the line
 /// (1-based, the header being line 1) and the column.

@@ -2,11 +2,10 @@
 
 use std::path::Path;
 
-use super::columns::EMPTY_CODE;
 use super::covariates::DerivedCovariate;
 use super::derive::{add_derived, check_positive, StandPlan};
 use super::frame::{Frame, FrameColumn};
-use super::status::{Outcome, Status, ACCEPTED_STATUS};
+use super::status::{status_per_row, Outcome, Status};
 use super::table::{parse_table, read_bytes, Table, TableOptions};
 use super::units::Units;
 use super::DataError;
@@ -133,6 +132,9 @@ pub struct Remeasurement {
     pub counts: RemeasureCounts,
     /// Things the user should know (e.g. a derived covariate taken from a column).
     pub warnings: Vec<String>,
+    /// Derived covariates taken from the file's column of the same name rather than computed
+    /// (projections recompute them from the tree list).
+    pub field_covariates: Vec<DerivedCovariate>,
     /// Every column name of the file.
     pub header: Vec<String>,
     /// SHA-256 of the file, 64 lowercase hex digits.
@@ -145,8 +147,9 @@ pub struct Remeasurement {
 /// - [`DataError::Io`] when the file cannot be read; [`DataError::File`] and
 ///   [`DataError::Record`] for an empty file, duplicate column names or ragged rows.
 /// - [`DataError::MissingColumn`] for a required column the file lacks.
-/// - [`DataError::File`] when a derived covariate that would be computed is also a file
-///   column (use `--use-column NAME` or rename it), or when no record is left.
+/// - [`DataError::Cell`] (line 1, the header) when a derived covariate that would be computed
+///   is also a file column (use `--use-column NAME` or rename it); [`DataError::File`] when no
+///   record is left.
 /// - [`DataError::Cell`] for a `dbh` (or `dbh2` in a growth fit) that is not a positive
 ///   number, a non-positive `years` or `expansion`, an empty stand, and a status that is
 ///   empty or not understood.
@@ -157,6 +160,23 @@ pub fn load_remeasurement(path: &Path, spec: &RemeasureSpec) -> Result<Remeasure
 }
 
 /// [`load_remeasurement`] on CSV bytes already in memory, named `source` in messages.
+///
+/// # Examples
+/// ```
+/// use stemcast::data::{load_remeasurement_bytes, DerivedCovariate, RemeasureSpec, Required};
+/// let csv = b"stand,dbh,alive,expansion\nA,10,1,100\nA,30,cut,100\nA,,1,100\n";
+/// let spec = RemeasureSpec {
+///     required: vec![Required::new("dbh", "term `dbh`")],
+///     derived: vec![DerivedCovariate::Bal],
+///     ..RemeasureSpec::default()
+/// };
+/// let r = load_remeasurement_bytes(csv, "remeasure.csv", &spec).unwrap();
+/// assert_eq!((r.counts.records, r.counts.censored, r.counts.ingrowth), (1, 1, 1));
+/// assert_eq!(r.alive.as_deref(), Some(&[true][..]));
+/// // The cut 30 cm tree still counts as larger: π/40000 · 30² · 100 m²/ha.
+/// let bal = r.frame.numeric("bal").unwrap()[0];
+/// assert!((bal - 7.0685835).abs() < 1e-6);
+/// ```
 ///
 /// # Errors
 /// As [`load_remeasurement`].
@@ -199,6 +219,11 @@ pub fn load_remeasurement_bytes(
         want(d.name());
     }
     if plan.computes() {
+        if !has(&names.dbh) {
+            let which: Vec<&str> = plan.compute.iter().map(|d| d.name()).collect();
+            let why = format!("derived covariates {} need diameters", which.join(", "));
+            return Err(missing(&names.dbh, &why));
+        }
         want(&names.stand);
         want(&names.expansion);
     }
@@ -238,7 +263,7 @@ pub fn load_remeasurement_bytes(
         categorical.push(names.stand.clone());
     }
     let options = TableOptions {
-        categorical,
+        categorical: categorical.clone(),
         columns: Some(read),
     };
     let Table {
@@ -263,7 +288,12 @@ pub fn load_remeasurement_bytes(
     }
 
     let status = if status_used {
-        Some(statuses(&frame, &names.status, spec.one_means, &has_first)?)
+        Some(status_per_row(
+            &frame,
+            &names.status,
+            spec.one_means,
+            &has_first,
+        )?)
     } else {
         None
     };
@@ -316,6 +346,15 @@ pub fn load_remeasurement_bytes(
             .collect()
     });
     frame.retain(&keep);
+    // A column that was text only because of rows that were left out (say "NA" in `dbh2` of
+    // dead trees) is numeric again.
+    for (name, column) in frame.columns.iter_mut() {
+        if !categorical.contains(name) {
+            if let Some(values) = column.to_numeric() {
+                *column = FrameColumn::Numeric(values);
+            }
+        }
+    }
     counts.records = frame.len();
     if frame.is_empty() {
         return Err(DataError::file(
@@ -331,40 +370,8 @@ pub fn load_remeasurement_bytes(
         alive,
         counts,
         warnings,
+        field_covariates: plan.from_field.clone(),
         header,
         sha256,
     })
-}
-
-/// The status of every row with a first diameter (`Alive` as a placeholder elsewhere). Each
-/// distinct value is parsed once.
-fn statuses(
-    frame: &Frame,
-    column: &str,
-    one_means: Outcome,
-    has_first: &[bool],
-) -> Result<Vec<Status>, DataError> {
-    let Some(FrameColumn::Text { levels, codes, .. }) = frame.columns.get(column) else {
-        return Ok(vec![Status::Alive; frame.len()]);
-    };
-    let parsed: Vec<_> = levels.iter().map(|l| Status::parse(l, one_means)).collect();
-    let mut out = Vec::with_capacity(codes.len());
-    for (i, &code) in codes.iter().enumerate() {
-        if !has_first[i] {
-            out.push(Status::Alive);
-            continue;
-        }
-        let cell_error =
-            |message: String| DataError::cell(&frame.source, frame.lines[i], column, message);
-        if code == EMPTY_CODE {
-            return Err(cell_error(format!(
-                "the status is empty on a row with a first diameter; use {ACCEPTED_STATUS}"
-            )));
-        }
-        match &parsed[code as usize] {
-            Ok(st) => out.push(*st),
-            Err(e) => return Err(cell_error(e.to_string())),
-        }
-    }
-    Ok(out)
 }

@@ -3,6 +3,10 @@
 use std::fmt;
 use std::str::FromStr;
 
+use super::columns::EMPTY_CODE;
+use super::frame::{Frame, FrameColumn};
+use super::DataError;
+
 /// What a status value of 1 (or true, yes) means, i.e. what the survival model's probability
 /// is about (`--outcome`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
@@ -99,4 +103,37 @@ impl Status {
             },
         }
     }
+}
+
+/// The status of every row with a first diameter (`Alive` as a placeholder elsewhere). Each
+/// distinct value is parsed once.
+pub(super) fn status_per_row(
+    frame: &Frame,
+    column: &str,
+    one_means: Outcome,
+    has_first: &[bool],
+) -> Result<Vec<Status>, DataError> {
+    let Some(FrameColumn::Text { levels, codes, .. }) = frame.columns.get(column) else {
+        return Ok(vec![Status::Alive; frame.len()]);
+    };
+    let parsed: Vec<_> = levels.iter().map(|l| Status::parse(l, one_means)).collect();
+    let mut out = Vec::with_capacity(codes.len());
+    for (i, &code) in codes.iter().enumerate() {
+        if !has_first[i] {
+            out.push(Status::Alive);
+            continue;
+        }
+        let cell_error =
+            |message: String| DataError::cell(&frame.source, frame.lines[i], column, message);
+        if code == EMPTY_CODE {
+            return Err(cell_error(format!(
+                "the status is empty on a row with a first diameter; use {ACCEPTED_STATUS}"
+            )));
+        }
+        match &parsed[code as usize] {
+            Ok(st) => out.push(*st),
+            Err(e) => return Err(cell_error(e.to_string())),
+        }
+    }
+    Ok(out)
 }

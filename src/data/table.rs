@@ -82,6 +82,15 @@ pub(super) fn read_bytes(path: &Path) -> Result<Vec<u8>, DataError> {
 /// [`DataError::File`] for an empty file, a header without records, duplicate column names or
 /// malformed CSV; [`DataError::Record`] for a row with a different number of fields than the
 /// header.
+///
+/// # Examples
+/// ```
+/// use stemcast::data::{parse_table, FrameColumn, TableOptions};
+/// let t = parse_table(b"dbh,plot\n12.5,a\n,b\n", "trees.csv", &TableOptions::default()).unwrap();
+/// assert_eq!(t.frame.lines, [2, 3]);
+/// assert_eq!(t.frame.numeric("dbh").unwrap()[0], 12.5);
+/// assert!(matches!(t.frame.column("plot"), Some(FrameColumn::Text { .. })));
+/// ```
 pub fn parse_table(bytes: &[u8], source: &str, options: &TableOptions) -> Result<Table, DataError> {
     let mut reader = csv_reader(bytes);
     let header = read_header(&mut reader, source)?;
@@ -93,7 +102,8 @@ pub fn parse_table(bytes: &[u8], source: &str, options: &TableOptions) -> Result
     // For each file column, the index of its builder when it is read.
     let mut slot: Vec<Option<usize>> = Vec::with_capacity(header.len());
     let mut names = Vec::new();
-    let capacity = bytes.len() / 32;
+    // Line breaks bound the number of records (quoted breaks only make it an overestimate).
+    let capacity = bytes.iter().filter(|&&b| b == b'\n').count() + 1;
     let mut builders = Vec::new();
     for name in &header {
         if wanted(name) {
@@ -108,14 +118,7 @@ pub fn parse_table(bytes: &[u8], source: &str, options: &TableOptions) -> Result
 
     let mut lines = Vec::with_capacity(capacity);
     let mut record = csv::ByteRecord::new();
-    loop {
-        match reader.read_byte_record(&mut record) {
-            Ok(true) => {}
-            Ok(false) => break,
-            Err(e) => return Err(csv_error(source, &e)),
-        }
-        let line = record.position().map_or(0, |p| p.line());
-        check_width(source, line, record.len(), header.len())?;
+    while let Some(line) = next_record(&mut reader, &mut record, source, header.len())? {
         for (i, cell) in record.iter().enumerate() {
             if let Some(b) = slot[i] {
                 builders[b].push(cell, line);
@@ -154,12 +157,41 @@ pub(super) fn parse_header(bytes: &[u8], source: &str) -> Result<Vec<String>, Da
 }
 
 /// A CSV reader as every reader in this module uses it: header row, ragged rows reported by
-/// us rather than by csv (so the message can say what the header has).
+/// us rather than by csv (so the message can say what the header has), and records ended by
+/// `\n` alone. With csv's default CRLF terminator a record's position points at the `\n` of
+/// the previous `\r\n`, so its line number would be one short; here the `\r` stays at the end
+/// of the last cell, where trimming removes it, and [`next_record`] skips the blank lines
+/// (`\r` alone) that this leaves as records.
 pub(super) fn csv_reader<R: std::io::Read>(input: R) -> csv::Reader<R> {
     csv::ReaderBuilder::new()
         .has_headers(true)
         .flexible(true)
+        .terminator(csv::Terminator::Any(b'\n'))
         .from_reader(input)
+}
+
+/// Read the next non-blank record into `record` and check it has `width` fields. Returns its
+/// 1-based line, or `None` at the end.
+pub(super) fn next_record<R: std::io::Read>(
+    reader: &mut csv::Reader<R>,
+    record: &mut csv::ByteRecord,
+    source: &str,
+    width: usize,
+) -> Result<Option<u64>, DataError> {
+    loop {
+        if !reader
+            .read_byte_record(record)
+            .map_err(|e| csv_error(source, &e))?
+        {
+            return Ok(None);
+        }
+        if record.len() == 1 && trim_cell(&record[0]).is_empty() && width > 1 {
+            continue;
+        }
+        let line = record.position().map_or(0, |p| p.line());
+        check_width(source, line, record.len(), width)?;
+        return Ok(Some(line));
+    }
 }
 
 /// Read and check the header: not empty, names unique.
@@ -254,10 +286,7 @@ fn backfill(
     let mut reader = csv_reader(bytes);
     let mut record = csv::ByteRecord::new();
     for row in 0..rows {
-        if !reader
-            .read_byte_record(&mut record)
-            .map_err(|e| csv_error(source, &e))?
-        {
+        if next_record(&mut reader, &mut record, source, slot.len())?.is_none() {
             break;
         }
         for (i, cell) in record.iter().enumerate() {

@@ -1,14 +1,14 @@
 //! Tree lists (projection input): per-stand arrays of tree ids, diameters, expansion factors
 //! and attribute columns, read whole or streamed one stand at a time.
 
-use std::collections::{BTreeMap, HashMap, HashSet};
+use std::collections::{BTreeMap, HashMap};
 use std::io::Read;
 use std::path::Path;
 
 use super::columns::{parse_number, trim_cell, ColumnBuilder};
 use super::frame::FrameColumn;
 use super::remeasure::ColumnNames;
-use super::table::{check_width, csv_error, csv_reader, read_header};
+use super::table::{csv_reader, next_record, read_header};
 use super::DataError;
 
 /// What to read from a tree list.
@@ -37,7 +37,9 @@ pub struct TreeList {
     pub expansion: Vec<f64>,
     /// 1-based CSV line of each tree.
     pub lines: Vec<u64>,
-    /// Every other column, numeric or text as in [`FrameColumn`].
+    /// Every other column, numeric or text as in [`FrameColumn`], typed and with text levels
+    /// from this stand's rows only (declare a column categorical in [`TreeListSpec`] to keep
+    /// it text in every stand).
     pub attributes: BTreeMap<String, FrameColumn>,
 }
 
@@ -55,20 +57,24 @@ impl TreeList {
 
 /// Where the role columns are in a file.
 #[derive(Debug, Clone)]
-struct Layout {
-    source: String,
+pub(super) struct Layout {
+    pub(super) source: String,
     stand: Option<usize>,
     tree: usize,
     dbh: usize,
     expansion: usize,
     /// (file index, name, declared categorical) of the attribute columns.
     attributes: Vec<(usize, String, bool)>,
-    names: ColumnNames,
+    pub(super) names: ColumnNames,
     width: usize,
 }
 
 impl Layout {
-    fn new(header: &[String], source: &str, spec: &TreeListSpec) -> Result<Self, DataError> {
+    pub(super) fn new(
+        header: &[String],
+        source: &str,
+        spec: &TreeListSpec,
+    ) -> Result<Self, DataError> {
         let find = |c: &str| header.iter().position(|h| h == c);
         let need = |c: &str| {
             find(c).ok_or_else(|| DataError::MissingColumn {
@@ -104,7 +110,11 @@ impl Layout {
     }
 
     /// The stand key of a record (trimmed bytes); empty when the file has no stand column.
-    fn stand_key<'r>(&self, record: &'r csv::ByteRecord, line: u64) -> Result<&'r [u8], DataError> {
+    pub(super) fn stand_key<'r>(
+        &self,
+        record: &'r csv::ByteRecord,
+        line: u64,
+    ) -> Result<&'r [u8], DataError> {
         let Some(s) = self.stand else {
             return Ok(&[]);
         };
@@ -121,7 +131,7 @@ impl Layout {
     }
 
     /// Build one stand's tree list from its records.
-    fn build(&self, records: &[(csv::ByteRecord, u64)]) -> Result<TreeList, DataError> {
+    pub(super) fn build(&self, records: &[(csv::ByteRecord, u64)]) -> Result<TreeList, DataError> {
         let n = records.len();
         let stand = match (self.stand, records.first()) {
             (Some(s), Some((r, _))) => Some(String::from_utf8_lossy(trim_cell(&r[s])).into_owned()),
@@ -270,129 +280,22 @@ pub fn read_single_stand(path: &Path, spec: &TreeListSpec) -> Result<TreeList, D
         .ok_or_else(|| DataError::file(path.display().to_string(), "no trees"))
 }
 
-/// Reads a tree list one stand at a time, for batch runs over many stands: memory holds one
-/// stand's records plus the set of stand ids already seen. The rows of each stand must be
-/// contiguous (e.g. the file sorted by stand).
-pub struct TreeListStream<R: Read> {
-    reader: csv::Reader<R>,
-    layout: Layout,
-    /// The first record of the next stand, read while finishing the previous one.
-    pending: Option<(csv::ByteRecord, u64)>,
-    seen: HashSet<Vec<u8>>,
-    failed: bool,
-}
-
-impl TreeListStream<std::io::BufReader<std::fs::File>> {
-    /// Open the tree list at `path` and check its header.
-    ///
-    /// # Errors
-    /// [`DataError::Io`], and the header errors of [`read_tree_lists`].
-    pub fn open(path: &Path, spec: &TreeListSpec) -> Result<Self, DataError> {
-        let file = open(path)?;
-        Self::from_reader(
-            std::io::BufReader::new(file),
-            &path.display().to_string(),
-            spec,
-        )
-    }
-}
-
-impl<R: Read> TreeListStream<R> {
-    /// Stream stands from any reader, named `source` in messages.
-    ///
-    /// # Errors
-    /// The header errors of [`read_tree_lists`].
-    pub fn from_reader(input: R, source: &str, spec: &TreeListSpec) -> Result<Self, DataError> {
-        let mut reader = csv_reader(input);
-        let header = read_header(&mut reader, source)?;
-        let layout = Layout::new(&header, source, spec)?;
-        Ok(TreeListStream {
-            reader,
-            layout,
-            pending: None,
-            seen: HashSet::new(),
-            failed: false,
-        })
-    }
-
-    fn next_stand(&mut self) -> Result<Option<TreeList>, DataError> {
-        let mut records = Vec::new();
-        if let Some(first) = self.pending.take() {
-            records.push(first);
-        }
-        let mut record = csv::ByteRecord::new();
-        while read_record(&mut self.reader, &mut record, &self.layout)? {
-            let line = line_of(&record);
-            let key = self.layout.stand_key(&record, line)?;
-            let same = match records.first() {
-                None => true,
-                Some((r, l)) => self.layout.stand_key(r, *l)? == key,
-            };
-            if same {
-                records.push((record.clone(), line));
-            } else {
-                self.pending = Some((record.clone(), line));
-                break;
-            }
-        }
-        let Some((first, line)) = records.first() else {
-            return Ok(None);
-        };
-        let key = self.layout.stand_key(first, *line)?.to_vec();
-        if !self.seen.insert(key.clone()) {
-            return Err(DataError::cell(
-                &self.layout.source,
-                *line,
-                &self.layout.names.stand,
-                format!(
-                    "stand \"{}\" appears again after other stands; the rows of a stand must be together (sort the file by stand)",
-                    String::from_utf8_lossy(&key)
-                ),
-            ));
-        }
-        self.layout.build(&records).map(Some)
-    }
-}
-
-impl<R: Read> Iterator for TreeListStream<R> {
-    type Item = Result<TreeList, DataError>;
-
-    /// The next stand; after an error the stream ends.
-    fn next(&mut self) -> Option<Self::Item> {
-        if self.failed {
-            return None;
-        }
-        let item = self.next_stand().transpose();
-        if matches!(item, Some(Err(_))) {
-            self.failed = true;
-        }
-        item
-    }
-}
-
-fn open(path: &Path) -> Result<std::fs::File, DataError> {
+pub(super) fn open(path: &Path) -> Result<std::fs::File, DataError> {
     std::fs::File::open(path).map_err(|e| DataError::Io {
         file: path.display().to_string(),
         source: e,
     })
 }
 
-fn line_of(record: &csv::ByteRecord) -> u64 {
+pub(super) fn line_of(record: &csv::ByteRecord) -> u64 {
     record.position().map_or(0, |p| p.line())
 }
 
-/// Read the next record and check its width; false at the end.
-fn read_record<R: Read>(
+/// Read the next non-blank record and check its width; false at the end.
+pub(super) fn read_record<R: Read>(
     reader: &mut csv::Reader<R>,
     record: &mut csv::ByteRecord,
     layout: &Layout,
 ) -> Result<bool, DataError> {
-    if !reader
-        .read_byte_record(record)
-        .map_err(|e| csv_error(&layout.source, &e))?
-    {
-        return Ok(false);
-    }
-    check_width(&layout.source, line_of(record), record.len(), layout.width)?;
-    Ok(true)
+    Ok(next_record(reader, record, &layout.source, layout.width)?.is_some())
 }

@@ -146,3 +146,17 @@ impl FromStr for Units {
 pub fn reineke_sdi(stems: f64, qmd: f64, units: Units) -> f64 {
     stems * (qmd / units.sdi_reference_diameter()).powf(REINEKE_EXPONENT)
 }
+
+/// Quadratic mean diameter from stand basal area and stems per area unit.
+///
+/// # Formula
+/// QMD = √(G / (k·N)) with k the basal-area constant of [`Units::basal_area_constant`].
+///
+/// # Examples
+/// ```
+/// use stemcast::data::{qmd_from_basal_area, Units};
+/// assert!((qmd_from_basal_area(80.0, 200.0, Units::Imperial) - 8.56).abs() < 0.005);
+/// ```
+pub fn qmd_from_basal_area(basal_area: f64, stems: f64, units: Units) -> f64 {
+    (basal_area / (units.basal_area_constant() * stems)).sqrt()
+}
