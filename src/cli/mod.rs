@@ -22,13 +22,13 @@ enum Command {
     Demo(demo::DemoArgs),
     /// Fit a survival or growth model from a remeasurement CSV.
     #[command(subcommand)]
-    Fit(fit::FitCommand),
+    Fit(Box<fit::FitCommand>),
 }
 
 /// Run the parsed command.
 pub fn run(cli: Cli) -> Result<(), Error> {
     match cli.command {
         Command::Demo(a) => demo::run(&a),
-        Command::Fit(c) => fit::run(c),
+        Command::Fit(c) => fit::run(*c),
     }
 }
