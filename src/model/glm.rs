@@ -6,7 +6,7 @@ use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
 use statrs::function::gamma::ln_gamma;
 
-use super::irls::{Problem, Response};
+use super::irls::{unit_deviance, Problem, Response};
 use super::linalg::{first_aliased_column, SpdFactor};
 use super::link::Link;
 use super::separation::{self, Separation};
@@ -184,33 +184,31 @@ fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
             }
         }
     }
-    Ok(Response { y, wt })
+    Ok(Response::new(y, wt))
 }
 
-/// The full binomial log-likelihood at fitted probabilities `mu`.
+/// The full binomial log-likelihood from the deviance: ℓ = −D/2 + ℓ_saturated.
 ///
 /// # Formula
-/// 0/1 rows: Σ wᵢ [yᵢ ln μᵢ + (1 − yᵢ) ln(1 − μᵢ)]. Successes sᵢ of nᵢ trials:
-/// Σ wᵢ [ln C(nᵢ, sᵢ) + sᵢ ln μᵢ + (nᵢ − sᵢ) ln(1 − μᵢ)], ln C via ln Γ.
-fn log_likelihood(data: &GlmData, r: &Response, mu: impl Iterator<Item = f64>) -> f64 {
-    let mut ll = 0.0;
-    for (i, m) in mu.enumerate() {
-        if r.wt[i] == 0.0 {
-            continue;
-        }
-        let (y, w) = (r.y[i], r.wt[i]);
-        let mut term = w * (y * m.ln() + (1.0 - y) * (-m).ln_1p());
-        if y == 0.0 || y == 1.0 {
-            term = w * if y == 1.0 { m.ln() } else { (-m).ln_1p() };
-        }
-        if let Some(t) = data.trials {
-            let (n, s) = (t[i], data.y[i]);
+/// 0/1 rows: ℓ = Σ wᵢ [yᵢ ln μᵢ + (1 − yᵢ) ln(1 − μᵢ)] = −D/2 (the saturated model fits 0/1
+/// exactly). Successes sᵢ of nᵢ trials with prior weight wᵢ, proportion yᵢ = sᵢ/nᵢ:
+/// ℓ = Σ wᵢ [ln C(nᵢ, sᵢ) + sᵢ ln μᵢ + (nᵢ − sᵢ) ln(1 − μᵢ)]
+///   = −D/2 + Σ wᵢ [ln C(nᵢ, sᵢ) + nᵢ (yᵢ ln yᵢ + (1 − yᵢ) ln(1 − yᵢ))], ln C via ln Γ.
+fn log_likelihood(data: &GlmData, r: &Response, deviance: f64) -> f64 {
+    let Some(trials) = data.trials else {
+        return -deviance / 2.0;
+    };
+    let xlogx = |v: f64| if v > 0.0 { v * v.ln() } else { 0.0 };
+    let saturated: f64 = (0..r.y.len())
+        .filter(|&i| r.wt[i] > 0.0)
+        .map(|i| {
+            let (n, s) = (trials[i], data.y[i]);
             let prior = data.weights.map_or(1.0, |w| w[i]);
-            term += prior * (ln_gamma(n + 1.0) - ln_gamma(s + 1.0) - ln_gamma(n - s + 1.0));
-        }
-        ll += term;
-    }
-    ll
+            let ln_choose = ln_gamma(n + 1.0) - ln_gamma(s + 1.0) - ln_gamma(n - s + 1.0);
+            prior * ln_choose + r.wt[i] * (xlogx(r.y[i]) + xlogx(1.0 - r.y[i]))
+        })
+        .sum();
+    -deviance / 2.0 + saturated
 }
 
 /// Index of a column of ones (over rows with non-zero weight), the model's intercept.
@@ -308,12 +306,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
         .inverse();
     let intercept = intercept_column(xs, p, &response);
     let null_deviance = null_deviance(&problem, intercept)?;
-    let beta = Array1::from(fit.beta.clone());
-    let mut eta = x.dot(&beta);
-    if let Some(o) = &offset {
-        eta += &ArrayView1::from(o.as_slice());
-    }
-    let ll = log_likelihood(data, &response, eta.iter().map(|&e| opts.link.inverse(e)));
+    let ll = log_likelihood(data, &response, fit.last.deviance);
     let df_null = n_obs - usize::from(intercept.is_some());
     let mut out = summarise(fit.beta, covariance, ll, n_obs);
     out.link = opts.link;
@@ -326,8 +319,23 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
 }
 
 /// Deviance of the intercept-only model with the offset; without an intercept, of η = offset.
+/// Without an offset the intercept-only estimate is the weighted mean μ̂ = Σ wy / Σ w.
 fn null_deviance(problem: &Problem, intercept: Option<usize>) -> Result<f64, ModelError> {
-    let n = problem.response.wt.len();
+    let r = problem.response;
+    if intercept.is_some() && problem.offset.is_none() {
+        let total: f64 = r.wt.iter().sum();
+        let mu = r.wt.iter().zip(&r.y).map(|(w, y)| w * y).sum::<f64>() / total;
+        let (mut ones, mut zeros, mut other) = (0.0, 0.0, 0.0);
+        for (&w, &y) in r.wt.iter().zip(&r.y).filter(|(&w, _)| w > 0.0) {
+            match y {
+                1.0 => ones += w,
+                0.0 => zeros += w,
+                _ => other += w * unit_deviance(y, mu),
+            }
+        }
+        return Ok(-2.0 * (ones * mu.ln() + zeros * (-mu).ln_1p()) + other);
+    }
+    let n = r.wt.len();
     let ones = vec![1.0; n];
     let null = Problem {
         x: &ones,

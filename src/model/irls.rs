@@ -5,7 +5,7 @@
 //! with no n-sized temporaries. The design matrix is row-major and contiguous.
 
 use super::linalg::SpdFactor;
-use super::link::{variance, Link};
+use super::link::{variance, Link, MU_EPS};
 use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
 
 /// Step-halving gives up after this many halvings and takes the step as it is.
@@ -18,6 +18,16 @@ pub struct Response {
     pub y: Vec<f64>,
     /// Total weight of the row (prior weight × number of trials); 0 leaves the row out.
     pub wt: Vec<f64>,
+    /// True when every proportion is 0 or 1 (enables the logit fast path).
+    pub binary: bool,
+}
+
+impl Response {
+    /// Builds the response, noting whether every proportion is 0 or 1.
+    pub fn new(y: Vec<f64>, wt: Vec<f64>) -> Self {
+        let binary = y.iter().all(|&v| v == 0.0 || v == 1.0);
+        Response { y, wt, binary }
+    }
 }
 
 /// What one pass over the rows produces.
@@ -80,51 +90,231 @@ pub struct Problem<'a> {
     pub link: Link,
 }
 
+/// Sums deviance contributions. Unit-weight 0/1 rows contribute −2 ln q, q the fitted
+/// probability of the observed outcome; those q are multiplied 16 at a time (each is at least
+/// `MU_EPS`, so 16 of them cannot underflow) and one logarithm is taken per block.
+#[derive(Debug, Clone, Copy)]
+struct DevianceSum {
+    sum: f64,
+    prod: f64,
+    count: u32,
+}
+
+impl DevianceSum {
+    fn new() -> Self {
+        DevianceSum {
+            sum: 0.0,
+            prod: 1.0,
+            count: 0,
+        }
+    }
+
+    #[inline(always)]
+    fn add_prob(&mut self, q: f64) {
+        self.prod *= q;
+        self.count += 1;
+        if self.count == 16 {
+            self.sum -= 2.0 * self.prod.ln();
+            self.prod = 1.0;
+            self.count = 0;
+        }
+    }
+
+    fn total(self) -> f64 {
+        self.sum - 2.0 * self.prod.ln()
+    }
+}
+
+/// Rows per block of a pass.
+const BLOCK: usize = 128;
+
+/// The offset of rows without one.
+const ZEROS: [f64; BLOCK] = [0.0; BLOCK];
+
+/// Per-block buffers and running totals of a pass.
+struct BlockAcc {
+    eta: [f64; BLOCK],
+    w: [f64; BLOCK],
+    wz: [f64; BLOCK],
+    dev: DevianceSum,
+    mu_range: (f64, f64),
+}
+
+impl BlockAcc {
+    fn new() -> Self {
+        BlockAcc {
+            eta: [0.0; BLOCK],
+            w: [0.0; BLOCK],
+            wz: [0.0; BLOCK],
+            dev: DevianceSum::new(),
+            mu_range: (f64::INFINITY, f64::NEG_INFINITY),
+        }
+    }
+
+    fn finish(self, at_beta: bool, xtwx: Vec<f64>, xtwz: Vec<f64>) -> Pass {
+        Pass {
+            deviance: if at_beta {
+                self.dev.total()
+            } else {
+                f64::INFINITY
+            },
+            xtwx,
+            xtwz,
+            mu_range: self.mu_range,
+        }
+    }
+}
+
 impl Problem<'_> {
-    /// One pass at `beta`, or at the starting values μ = (wt·y + ½)/(wt + 1) when `beta` is None.
+    /// One pass at `beta`, or at the starting values μ = (wt·y + ½)/(wt + 1) when `beta` is
+    /// None (then `deviance` is +∞: it is not needed).
     pub fn pass(&self, beta: Option<&[f64]>) -> Pass {
+        // Fixed-size kernels let the compiler unroll the p×p accumulation for the usual
+        // small designs; larger ones take the general loop.
+        match self.p {
+            1 => self.pass_fixed::<1>(beta),
+            2 => self.pass_fixed::<2>(beta),
+            3 => self.pass_fixed::<3>(beta),
+            4 => self.pass_fixed::<4>(beta),
+            5 => self.pass_fixed::<5>(beta),
+            6 => self.pass_fixed::<6>(beta),
+            7 => self.pass_fixed::<7>(beta),
+            8 => self.pass_fixed::<8>(beta),
+            _ => self.pass_general(beta),
+        }
+    }
+
+    fn pass_fixed<const P: usize>(&self, beta: Option<&[f64]>) -> Pass {
+        let mut a = [[0.0; P]; P];
+        let mut b = [0.0; P];
+        let mut acc = BlockAcc::new();
+        let coef: [f64; P] = std::array::from_fn(|j| beta.map_or(0.0, |c| c[j]));
+        for (k, block) in self.x.chunks(P * BLOCK).enumerate() {
+            if beta.is_some() {
+                for (e, xi) in acc.eta.iter_mut().zip(block.chunks_exact(P)) {
+                    let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
+                    *e = (0..P).map(|j| xi[j] * coef[j]).sum();
+                }
+            }
+            self.row_block(k * BLOCK, block.len() / P, beta.is_some(), &mut acc);
+            (a, b) = accumulate_fixed(block, &acc.w, &acc.wz, a, b);
+        }
+        let xtwx = (0..P * P).map(|m| a[(m / P).max(m % P)][(m / P).min(m % P)]);
+        acc.finish(beta.is_some(), xtwx.collect(), b.to_vec())
+    }
+
+    fn pass_general(&self, beta: Option<&[f64]>) -> Pass {
         let p = self.p;
         let mut xtwx = vec![0.0; p * p];
         let mut xtwz = vec![0.0; p];
-        let mut deviance = 0.0;
-        let mut mu_range = (f64::INFINITY, f64::NEG_INFINITY);
-        let rows = self.x.chunks_exact(p);
-        for (i, xi) in rows.enumerate() {
-            let wt = self.response.wt[i];
-            if wt == 0.0 {
-                continue;
+        let mut acc = BlockAcc::new();
+        for (k, block) in self.x.chunks(p * BLOCK).enumerate() {
+            if let Some(c) = beta {
+                for (e, xi) in acc.eta.iter_mut().zip(block.chunks_exact(p)) {
+                    *e = xi.iter().zip(c).map(|(v, c)| v * c).sum();
+                }
             }
-            let y = self.response.y[i];
-            let off = self.offset.map_or(0.0, |o| o[i]);
-            let (eta, mu, d) = match beta {
-                Some(b) => {
-                    let eta = xi.iter().zip(b).map(|(a, c)| a * c).sum::<f64>() + off;
-                    let (mu, d) = self.link.inverse_and_derivative(eta);
-                    (eta, mu, d)
-                }
-                None => {
-                    let mu = (wt * y + 0.5) / (wt + 1.0);
-                    let eta = self.link.link(mu);
-                    (eta, mu, self.link.mu_eta(eta))
-                }
-            };
-            mu_range = (mu_range.0.min(mu), mu_range.1.max(mu));
-            deviance += wt * unit_deviance(y, mu);
-            let w = wt * d * d / variance(mu);
-            let z = eta - off + (y - mu) / d;
-            accumulate(&mut xtwx, &mut xtwz, xi, w, w * z);
+            self.row_block(k * BLOCK, block.len() / p, beta.is_some(), &mut acc);
+            for (xi, (&w, &wz)) in block.chunks_exact(p).zip(acc.w.iter().zip(&acc.wz)) {
+                accumulate(&mut xtwx, &mut xtwz, xi, w, wz);
+            }
         }
         for j in 0..p {
             for k in j + 1..p {
                 xtwx[j * p + k] = xtwx[k * p + j];
             }
         }
-        Pass {
-            deviance,
-            xtwx,
-            xtwz,
-            mu_range,
+        acc.finish(beta.is_some(), xtwx, xtwz)
+    }
+
+    /// Phase one of a pass over a block of rows: working weight w and w × working response
+    /// (offset removed) per row into the block buffers (zero for rows left out), plus the
+    /// deviance and μ range. Kept apart from the accumulation so that the accumulators stay in
+    /// registers there (a call to `exp` clobbers every floating-point register).
+    fn row_block(&self, first: usize, rows: usize, at_beta: bool, acc: &mut BlockAcc) {
+        let wts = &self.response.wt[first..first + rows];
+        let ys = &self.response.y[first..first + rows];
+        let offs = self
+            .offset
+            .map_or(&ZEROS[..rows], |o| &o[first..first + rows]);
+        let data = acc.eta[..rows].iter().zip(wts.iter().zip(ys).zip(offs));
+        // Running totals live in locals, not behind `acc`, so they stay in registers.
+        let mut dev = acc.dev;
+        let (mut mu_min, mut mu_max) = acc.mu_range;
+        let (w_buf, wz_buf) = (&mut acc.w, &mut acc.wz);
+        match at_beta {
+            true if self.response.binary && self.link == Link::Logit => {
+                for (r, (&eta_lin, ((&wt, &y), &off))) in data.enumerate() {
+                    // Branch-free: with s = 2y − 1, the probability of the observed outcome
+                    // is q = 1/(1 + e), e = exp(−s·η), and 1 − q = e·q without cancellation;
+                    // then y − μ = s(1 − q) and μ(1 − μ) = q(1 − q).
+                    let s = 2.0 * y - 1.0;
+                    let e = (-s * (eta_lin + off)).min(700.0).exp();
+                    let q = 1.0 / (1.0 + e);
+                    let one_minus_q = e * q;
+                    let w = wt * (q * one_minus_q).max(MU_EPS);
+                    w_buf[r] = w;
+                    wz_buf[r] = w * eta_lin + wt * s * one_minus_q;
+                    let mu = y * q + (1.0 - y) * one_minus_q;
+                    (mu_min, mu_max) = (mu_min.min(mu), mu_max.max(mu));
+                    let q = q.max(MU_EPS);
+                    if wt == 1.0 {
+                        dev.add_prob(q);
+                    } else {
+                        dev.sum -= 2.0 * wt * q.ln();
+                    }
+                }
+            }
+            true => {
+                for (r, (&eta_lin, ((&wt, &y), &off))) in data.enumerate() {
+                    if wt == 0.0 {
+                        (w_buf[r], wz_buf[r]) = (0.0, 0.0);
+                        continue;
+                    }
+                    let (mu, d) = self.link.inverse_and_derivative(eta_lin + off);
+                    let w = wt * d * d / variance(mu);
+                    w_buf[r] = w;
+                    wz_buf[r] = w * (eta_lin + (y - mu) / d);
+                    (mu_min, mu_max) = (mu_min.min(mu), mu_max.max(mu));
+                    dev.sum += wt * unit_deviance(y, mu);
+                }
+            }
+            false => {
+                let unit = [0.25, 0.75].map(|mu| {
+                    let (w, wz) = self.start_terms(mu, 1.0);
+                    (mu, w, wz)
+                });
+                let unit_rows = self.response.binary;
+                for (r, (_, ((&wt, &y), &off))) in data.enumerate() {
+                    // Unit-weight 0/1 rows (the common case) read a table indexed by y, without
+                    // a data-dependent branch.
+                    let (mu, w, wz) = if unit_rows && wt == 1.0 {
+                        unit[y as usize]
+                    } else if wt == 0.0 {
+                        (0.5, 0.0, 0.0)
+                    } else {
+                        let mu = (wt * y + 0.5) / (wt + 1.0);
+                        let (w, wz) = self.start_terms(mu, wt);
+                        (mu, w, wz)
+                    };
+                    w_buf[r] = w;
+                    wz_buf[r] = wz - w * off;
+                    (mu_min, mu_max) = (mu_min.min(mu), mu_max.max(mu));
+                }
+            }
         }
+        acc.dev = dev;
+        acc.mu_range = (mu_min, mu_max);
+    }
+
+    /// The working weight and w × working response (without offset) at the start μ.
+    fn start_terms(&self, mu: f64, wt: f64) -> (f64, f64) {
+        let eta = self.link.link(mu);
+        let d = self.link.mu_eta(eta);
+        let w = wt * d * d / variance(mu);
+        // The start μ is (wt·y + ½)/(wt + 1), so y − μ = (y − μ)… recovered from μ and wt.
+        let y = (mu * (wt + 1.0) - 0.5) / wt;
+        (w, w * (eta + (y - mu) / d))
     }
 
     /// Runs IRLS from the pass at the starting values until both stopping rules of design §4
@@ -176,6 +366,30 @@ impl Problem<'_> {
             converged,
         })
     }
+}
+
+/// Adds Σ w·xxᵀ (lower triangle) and Σ wz·x over a block of rows to `a` and `b`. A separate
+/// function taking and returning the accumulators by value, so that they live in registers
+/// (inlined into the pass loop, LLVM stores them back to memory on every row).
+#[inline(never)]
+fn accumulate_fixed<const P: usize>(
+    block: &[f64],
+    w: &[f64],
+    wz: &[f64],
+    mut a: [[f64; P]; P],
+    mut b: [f64; P],
+) -> ([[f64; P]; P], [f64; P]) {
+    for (xi, (&w, &wz)) in block.chunks_exact(P).zip(w.iter().zip(wz)) {
+        let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
+        for j in 0..P {
+            let wxj = w * xi[j];
+            b[j] += wz * xi[j];
+            for k in 0..=j {
+                a[j][k] += wxj * xi[k];
+            }
+        }
+    }
+    (a, b)
 }
 
 /// Adds w·xxᵀ (lower triangle) and wz·x for one row.

@@ -176,10 +176,7 @@ mod tests {
 
     fn binary(x: &[f64], y: &[f64]) -> (Vec<f64>, Response) {
         let design: Vec<f64> = x.iter().flat_map(|&v| [1.0, v]).collect();
-        let r = Response {
-            y: y.to_vec(),
-            wt: vec![1.0; y.len()],
-        };
+        let r = Response::new(y.to_vec(), vec![1.0; y.len()]);
         (design, r)
     }
 
