@@ -258,7 +258,8 @@ pub fn calibration_by_class(
             "covariate, outcome and fitted lengths differ".into(),
         ));
     }
-    if breaks.is_empty() || breaks.windows(2).any(|w| !(w[0] < w[1])) {
+    let increasing = breaks.windows(2).all(|w| w[0] < w[1]);
+    if breaks.is_empty() || !increasing || breaks.iter().any(|b| b.is_nan()) {
         return Err(Unavailable("class breaks must be increasing".into()));
     }
     let mut rows: Vec<CalibrationClass> = breaks
