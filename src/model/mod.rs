@@ -8,6 +8,7 @@ pub mod growth;
 pub mod irls;
 pub mod linalg;
 pub mod link;
+pub mod robust;
 pub mod separation;
 pub mod survival;
 pub mod terms;
