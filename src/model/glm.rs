@@ -123,7 +123,7 @@ fn invalid(message: String) -> ModelError {
 }
 
 /// Checks the shapes and values of `data` and returns the response in proportion form.
-fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
+pub(crate) fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
     let n = data.x.nrows();
     if data.terms.len() != data.x.ncols() {
         return Err(invalid(format!(
@@ -194,7 +194,7 @@ fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
 /// exactly). Successes sᵢ of nᵢ trials with prior weight wᵢ, proportion yᵢ = sᵢ/nᵢ:
 /// ℓ = Σ wᵢ [ln C(nᵢ, sᵢ) + sᵢ ln μᵢ + (nᵢ − sᵢ) ln(1 − μᵢ)]
 ///   = −D/2 + Σ wᵢ [ln C(nᵢ, sᵢ) + nᵢ (yᵢ ln yᵢ + (1 − yᵢ) ln(1 − yᵢ))], ln C via ln Γ.
-fn log_likelihood(data: &GlmData, r: &Response, deviance: f64) -> f64 {
+pub(crate) fn log_likelihood(data: &GlmData, r: &Response, deviance: f64) -> f64 {
     let Some(trials) = data.trials else {
         return -deviance / 2.0;
     };
@@ -220,7 +220,13 @@ fn intercept_column(x: &[f64], p: usize, r: &Response) -> Option<usize> {
     })
 }
 
-fn rank_deficient(x: &[f64], p: usize, r: &Response, terms: &[String], j: usize) -> ModelError {
+pub(crate) fn rank_deficient(
+    x: &[f64],
+    p: usize,
+    r: &Response,
+    terms: &[String],
+    j: usize,
+) -> ModelError {
     let mut values = x.chunks_exact(p).zip(&r.wt).filter(|(_, &w)| w > 0.0);
     let first = values.next().map(|(row, _)| row[j]);
     let constant = values.all(|(row, _)| Some(row[j]) == first);

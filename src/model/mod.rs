@@ -3,6 +3,7 @@
 
 pub mod diagnostics;
 pub mod file;
+pub mod firth;
 pub mod glm;
 pub mod growth;
 pub mod irls;
