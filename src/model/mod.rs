@@ -1,6 +1,7 @@
 //! Model specification, fitting and storage: predictor terms, the binomial GLM (IRLS), the
 //! growth OLS, diagnostics, and the model file format.
 
+pub mod annualized;
 pub mod diagnostics;
 pub mod file;
 pub mod firth;
