@@ -287,7 +287,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
     }
     let fit = problem.run(start);
     let suspicious = match &fit {
-        Ok(f) => !f.converged || separation::extreme(f.last.mu_range),
+        Ok(f) => !f.converged || separation::extreme(f.last.min_tail),
         Err(_) => true,
     };
     if suspicious && n_obs > separation::ALWAYS_CHECK_MAX_ROWS {

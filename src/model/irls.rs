@@ -39,8 +39,9 @@ pub struct Pass {
     pub xtwx: Vec<f64>,
     /// XᵀWz with the working response of the pass (offset removed).
     pub xtwz: Vec<f64>,
-    /// Smallest and largest fitted μ among rows with non-zero weight.
-    pub mu_range: (f64, f64),
+    /// The smallest min(μ, 1 − μ) among rows with non-zero weight (0.5 in the start pass,
+    /// which does not look at it).
+    pub min_tail: f64,
 }
 
 /// The outcome of the IRLS loop.
@@ -136,8 +137,9 @@ struct BlockAcc {
     eta: [f64; BLOCK],
     w: [f64; BLOCK],
     wz: [f64; BLOCK],
+    q: [f64; BLOCK],
     dev: DevianceSum,
-    mu_range: (f64, f64),
+    min_tail: f64,
 }
 
 impl BlockAcc {
@@ -146,8 +148,9 @@ impl BlockAcc {
             eta: [0.0; BLOCK],
             w: [0.0; BLOCK],
             wz: [0.0; BLOCK],
+            q: [0.0; BLOCK],
             dev: DevianceSum::new(),
-            mu_range: (f64::INFINITY, f64::NEG_INFINITY),
+            min_tail: 0.5,
         }
     }
 
@@ -160,7 +163,7 @@ impl BlockAcc {
             },
             xtwx,
             xtwz,
-            mu_range: self.mu_range,
+            min_tail: self.min_tail,
         }
     }
 }
@@ -229,40 +232,53 @@ impl Problem<'_> {
 
     /// Phase one of a pass over a block of rows: working weight w and w × working response
     /// (offset removed) per row into the block buffers (zero for rows left out), plus the
-    /// deviance and μ range. Kept apart from the accumulation so that the accumulators stay in
-    /// registers there (a call to `exp` clobbers every floating-point register).
+    /// deviance and the smallest min(μ, 1 − μ). Kept apart from the accumulation so that the
+    /// accumulators stay in registers there (a call to `exp` clobbers every register).
     fn row_block(&self, first: usize, rows: usize, at_beta: bool, acc: &mut BlockAcc) {
         let wts = &self.response.wt[first..first + rows];
         let ys = &self.response.y[first..first + rows];
         let offs = self
             .offset
             .map_or(&ZEROS[..rows], |o| &o[first..first + rows]);
-        let data = acc.eta[..rows].iter().zip(wts.iter().zip(ys).zip(offs));
         // Running totals live in locals, not behind `acc`, so they stay in registers.
         let mut dev = acc.dev;
-        let (mut mu_min, mut mu_max) = acc.mu_range;
-        let (w_buf, wz_buf) = (&mut acc.w, &mut acc.wz);
+        let mut tail = acc.min_tail;
+        let BlockAcc {
+            eta,
+            w: w_buf,
+            wz: wz_buf,
+            q: q_buf,
+            ..
+        } = acc;
+        let data = eta[..rows].iter().zip(wts.iter().zip(ys).zip(offs));
         match at_beta {
             true if self.response.binary && self.link == Link::Logit => {
-                for (r, (&eta_lin, ((&wt, &y), &off))) in data.enumerate() {
-                    // Branch-free: with s = 2y − 1, the probability of the observed outcome
-                    // is q = 1/(1 + e), e = exp(−s·η), and 1 − q = e·q without cancellation;
-                    // then y − μ = s(1 − q) and μ(1 − μ) = q(1 − q).
-                    let s = 2.0 * y - 1.0;
-                    let e = (-s * (eta_lin + off)).min(700.0).exp();
+                // With s = 2y − 1 the probability of the observed outcome is q = 1/(1 + e),
+                // e = exp(−s·η), and 1 − q = e·q without cancellation; y − μ = s(1 − q) and
+                // μ(1 − μ) = q(1 − q). Three loops: the exponentials alone, then the
+                // arithmetic (vectorisable), then the deviance and tail (reductions).
+                for (q, (&eta_lin, ((_, &y), &off))) in q_buf.iter_mut().zip(data) {
+                    *q = ((1.0 - 2.0 * y) * (eta_lin + off)).min(700.0).exp();
+                }
+                let rest = eta[..rows].iter().zip(wts.iter().zip(ys));
+                for (r, (&eta_lin, (&wt, &y))) in rest.enumerate() {
+                    let e = q_buf[r];
                     let q = 1.0 / (1.0 + e);
                     let one_minus_q = e * q;
                     let w = wt * (q * one_minus_q).max(MU_EPS);
                     w_buf[r] = w;
-                    wz_buf[r] = w * eta_lin + wt * s * one_minus_q;
-                    let mu = y * q + (1.0 - y) * one_minus_q;
-                    (mu_min, mu_max) = (mu_min.min(mu), mu_max.max(mu));
-                    let q = q.max(MU_EPS);
+                    wz_buf[r] = w * eta_lin + wt * (2.0 * y - 1.0) * one_minus_q;
+                    q_buf[r] = q;
+                }
+                for (&q, &wt) in q_buf[..rows].iter().zip(wts) {
                     if wt == 1.0 {
-                        dev.add_prob(q);
+                        dev.add_prob(q.max(MU_EPS));
+                    } else if wt > 0.0 {
+                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
                     } else {
-                        dev.sum -= 2.0 * wt * q.ln();
+                        continue;
                     }
+                    tail = tail.min(q.min(1.0 - q));
                 }
             }
             true => {
@@ -275,45 +291,38 @@ impl Problem<'_> {
                     let w = wt * d * d / variance(mu);
                     w_buf[r] = w;
                     wz_buf[r] = w * (eta_lin + (y - mu) / d);
-                    (mu_min, mu_max) = (mu_min.min(mu), mu_max.max(mu));
+                    tail = tail.min(mu.min(1.0 - mu));
                     dev.sum += wt * unit_deviance(y, mu);
                 }
             }
             false => {
-                let unit = [0.25, 0.75].map(|mu| {
-                    let (w, wz) = self.start_terms(mu, 1.0);
-                    (mu, w, wz)
-                });
+                // Unit-weight 0/1 rows (the common case) read a table indexed by y.
+                let unit = [0.0, 1.0].map(|y| self.start_terms(y, 1.0));
                 let unit_rows = self.response.binary;
                 for (r, (_, ((&wt, &y), &off))) in data.enumerate() {
-                    // Unit-weight 0/1 rows (the common case) read a table indexed by y, without
-                    // a data-dependent branch.
-                    let (mu, w, wz) = if unit_rows && wt == 1.0 {
+                    let (w, wz) = if unit_rows && wt == 1.0 {
                         unit[y as usize]
                     } else if wt == 0.0 {
-                        (0.5, 0.0, 0.0)
+                        (0.0, 0.0)
                     } else {
-                        let mu = (wt * y + 0.5) / (wt + 1.0);
-                        let (w, wz) = self.start_terms(mu, wt);
-                        (mu, w, wz)
+                        self.start_terms(y, wt)
                     };
                     w_buf[r] = w;
                     wz_buf[r] = wz - w * off;
-                    (mu_min, mu_max) = (mu_min.min(mu), mu_max.max(mu));
                 }
             }
         }
         acc.dev = dev;
-        acc.mu_range = (mu_min, mu_max);
+        acc.min_tail = tail;
     }
 
-    /// The working weight and w × working response (without offset) at the start μ.
-    fn start_terms(&self, mu: f64, wt: f64) -> (f64, f64) {
+    /// The working weight and w × working response (without offset) at the start
+    /// μ = (wt·y + ½)/(wt + 1).
+    fn start_terms(&self, y: f64, wt: f64) -> (f64, f64) {
+        let mu = (wt * y + 0.5) / (wt + 1.0);
         let eta = self.link.link(mu);
         let d = self.link.mu_eta(eta);
         let w = wt * d * d / variance(mu);
-        // The start μ is (wt·y + ½)/(wt + 1), so y − μ = (y − μ)… recovered from μ and wt.
-        let y = (mu * (wt + 1.0) - 0.5) / wt;
         (w, w * (eta + (y - mu) / d))
     }
 
@@ -379,13 +388,40 @@ fn accumulate_fixed<const P: usize>(
     mut a: [[f64; P]; P],
     mut b: [f64; P],
 ) -> ([[f64; P]; P], [f64; P]) {
-    for (xi, (&w, &wz)) in block.chunks_exact(P).zip(w.iter().zip(wz)) {
-        let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
+    let rows = || block.chunks_exact(P).zip(w.iter().zip(wz));
+    // XᵀWz and the first two rows of the triangle, then two triangle rows per sweep: few
+    // enough accumulators per sweep to stay in registers (the block is in L1).
+    for (xi, (&w, &wz)) in rows() {
         for j in 0..P {
-            let wxj = w * xi[j];
             b[j] += wz * xi[j];
+        }
+        for j in 0..P.min(2) {
+            let wxj = w * xi[j];
             for k in 0..=j {
                 a[j][k] += wxj * xi[k];
+            }
+        }
+    }
+    for j0 in (2..P).step_by(2) {
+        let mut lo = [0.0; P];
+        let mut hi = [0.0; P];
+        for (xi, &w) in block.chunks_exact(P).zip(w) {
+            let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
+            let wx0 = w * xi[j0];
+            for k in 0..=j0 {
+                lo[k] += wx0 * xi[k];
+            }
+            if j0 + 1 < P {
+                let wx1 = w * xi[j0 + 1];
+                for k in 0..=j0 + 1 {
+                    hi[k] += wx1 * xi[k];
+                }
+            }
+        }
+        for k in 0..P {
+            a[j0][k] += lo[k];
+            if j0 + 1 < P {
+                a[j0 + 1][k] += hi[k];
             }
         }
     }

@@ -53,9 +53,10 @@ pub struct Separation {
     pub terms: Vec<String>,
 }
 
-/// True when fitted probabilities reach within [`EXTREME_MU`] of 0 or 1.
-pub fn extreme((min_mu, max_mu): (f64, f64)) -> bool {
-    min_mu < EXTREME_MU || max_mu > 1.0 - EXTREME_MU
+/// True when some fitted probability is within [`EXTREME_MU`] of 0 or 1, given the smallest
+/// min(μ, 1 − μ) over the records.
+pub fn extreme(min_tail: f64) -> bool {
+    min_tail < EXTREME_MU
 }
 
 /// One distinct constraint row: signed, scaled covariates and whether it must hold with
