@@ -75,7 +75,8 @@ pub fn require_unit_binary(trials: bool, weights: Option<&[f64]>) -> Result<(), 
 /// ROC AUC by the Mann–Whitney statistic, ties counted ½, in O(n log n).
 ///
 /// # Formula
-/// AUC = [2·#{(i, j): yᵢ = 1, yⱼ = 0, pᵢ > pⱼ} + #{tied pairs}] / (2 n₁ n₀).
+/// AUC = (2·N₍>₎ + N₍=₎) / (2 n₁ n₀), with N₍>₎ the pairs (event i, non-event j) with pᵢ > pⱼ
+/// and N₍=₎ the pairs with pᵢ = pⱼ.
 pub fn roc_auc(y: &[f64], fitted: &[f64]) -> Result<Auc, Unavailable> {
     check_binary(y, fitted)?;
     let mut order: Vec<usize> = (0..y.len()).collect();

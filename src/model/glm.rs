@@ -245,7 +245,7 @@ pub(crate) fn rank_deficient(
 /// Starts from μ = (w·y + ½)/(w + 1), stops when the relative deviance change is below
 /// [`crate::tolerance::IRLS_DEVIANCE_RTOL`] and the largest relative coefficient change
 /// (|Δβ|/(|β| + 0.1)) below [`crate::tolerance::IRLS_COEF_RTOL`], halving steps that increase the
-/// deviance. Separation is checked as [`separation::needs_check`] describes.
+/// deviance. Separation is checked as the [`separation`] module documents.
 ///
 /// # Errors
 /// [`ModelError::Invalid`] for inconsistent shapes or values, [`ModelError::RankDeficient`]
