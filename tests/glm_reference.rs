@@ -21,6 +21,7 @@ fn check_against_fixture(name: &str) {
     let (fit, c) = fit_case(name);
     let e = &c["expected"];
     assert!(fit.converged, "{name}: converged");
+    assert!(fit.warnings.is_empty(), "{name}: {:?}", fit.warnings);
     let p = fit.coefficients.len();
     assert_eq!(
         p,

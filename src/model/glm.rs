@@ -75,6 +75,8 @@ pub struct GlmFit {
     pub converged: bool,
     /// Rows with non-zero weight.
     pub n_obs: usize,
+    /// Things the user should know about the fit (step-halving, fitted probabilities at 0 or 1).
+    pub warnings: Vec<String>,
 }
 
 impl GlmFit {
@@ -321,6 +323,17 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
     out.null_deviance = null_deviance;
     out.df_null = df_null;
     out.iterations = fit.iterations;
+    if fit.halved_iterations > 0 {
+        out.warnings.push(format!(
+            "the IRLS step was halved in {} iteration(s) because the deviance increased",
+            fit.halved_iterations
+        ));
+    }
+    if separation::extreme(fit.last.min_tail) {
+        out.warnings.push(
+            "fitted probabilities numerically 0 or 1 occurred (no separation was found)".into(),
+        );
+    }
     Ok(out)
 }
 
@@ -392,5 +405,6 @@ fn summarise(
         iterations: 0,
         converged: true,
         n_obs,
+        warnings: Vec::new(),
     }
 }

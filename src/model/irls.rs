@@ -57,6 +57,8 @@ pub struct IrlsResult {
     pub iterations: usize,
     /// Whether both stopping rules were met.
     pub converged: bool,
+    /// Iterations in which the step had to be halved because the deviance increased.
+    pub halved_iterations: usize,
 }
 
 /// Why IRLS could not continue.
@@ -102,6 +104,7 @@ impl Problem<'_> {
         let mut beta_old: Option<Vec<f64>> = None;
         let mut iterations = 0;
         let mut converged = false;
+        let mut halved_iterations = 0;
         while iterations < MAX_ITERATIONS {
             let factor = SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular)?;
             let mut beta = factor.solve(&current.xtwz);
@@ -119,6 +122,7 @@ impl Problem<'_> {
                     next = self.pass(Some(&beta));
                     halvings += 1;
                 }
+                halved_iterations += usize::from(halvings > 0);
             }
             converged = beta_old.as_ref().is_some_and(|old| {
                 let dev_change =
@@ -141,6 +145,7 @@ impl Problem<'_> {
             last: current,
             iterations,
             converged,
+            halved_iterations,
         })
     }
 }
