@@ -4,9 +4,8 @@
 
 use ndarray::ArrayView1;
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, Normal};
 
-use super::glm::GlmData;
+use super::glm::{wald, GlmData};
 use super::linalg::SpdFactor;
 use super::ModelError;
 use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
@@ -192,16 +191,10 @@ fn finish(
     n_obs: usize,
 ) -> AnnualizedFit {
     let k = coefficients.len();
-    let std_errors: Vec<f64> = (0..k).map(|j| covariance[j][j].sqrt()).collect();
-    let z: Vec<f64> = coefficients
-        .iter()
-        .zip(&std_errors)
-        .map(|(b, s)| b / s)
-        .collect();
-    let normal = Normal::standard();
+    let (std_errors, z, p_values) = wald(&coefficients, &covariance);
     AnnualizedFit {
         terms: data.terms.to_vec(),
-        p_values: z.iter().map(|z| 2.0 * normal.cdf(-z.abs())).collect(),
+        p_values,
         z,
         std_errors,
         coefficients,

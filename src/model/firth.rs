@@ -4,9 +4,8 @@
 
 use ndarray::{CowArray, Ix2};
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, Normal};
 
-use super::glm::{log_likelihood, prepare_response, rank_deficient, GlmData};
+use super::glm::{log_likelihood, prepare_response, rank_deficient, wald, GlmData};
 use super::irls::{unit_deviance, Response};
 use super::linalg::{first_aliased_column, SpdFactor};
 use super::link::{Link, MU_EPS};
@@ -178,17 +177,10 @@ fn finish(
     n_obs: usize,
     r: &Response,
 ) -> FirthFit {
-    let p = coefficients.len();
-    let std_errors: Vec<f64> = (0..p).map(|j| s.inverse[j][j].sqrt()).collect();
-    let z: Vec<f64> = coefficients
-        .iter()
-        .zip(&std_errors)
-        .map(|(b, e)| b / e)
-        .collect();
-    let normal = Normal::standard();
+    let (std_errors, z, p_values) = wald(&coefficients, &s.inverse);
     FirthFit {
         terms: data.terms.to_vec(),
-        p_values: z.iter().map(|z| 2.0 * normal.cdf(-z.abs())).collect(),
+        p_values,
         z,
         std_errors,
         coefficients,

@@ -6,7 +6,7 @@ use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
 use statrs::function::gamma::ln_gamma;
 
-use super::irls::{unit_deviance, Problem, Response};
+use super::irls::{unit_deviance, IrlsError, Problem, Response};
 use super::linalg::{first_aliased_column, SpdFactor};
 use super::link::Link;
 use super::separation::{self, Separation};
@@ -297,11 +297,13 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
             return Err(separation_error(s));
         }
     }
-    let fit = fit.map_err(|_| ModelError::NotConverged {
-        iterations: 0,
-        deviance: f64::NAN,
-        hint: "the information matrix became singular; check for near-collinear terms".into(),
-    })?;
+    let fit = fit.map_err(
+        |IrlsError::Singular { iterations }| ModelError::NotConverged {
+            iterations,
+            deviance: f64::NAN,
+            hint: "the information matrix became singular; check for near-collinear terms".into(),
+        },
+    )?;
     if !fit.converged {
         return Err(ModelError::NotConverged {
             iterations: fit.iterations,
@@ -314,27 +316,41 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
         .inverse();
     let intercept = intercept_column(xs, p, &response);
     let null_deviance = null_deviance(&problem, intercept)?;
-    let ll = log_likelihood(data, &response, fit.last.deviance);
-    let df_null = n_obs - usize::from(intercept.is_some());
-    let mut out = summarise(fit.beta, covariance, ll, n_obs);
-    out.link = opts.link;
-    out.terms = data.terms.to_vec();
-    out.deviance = fit.last.deviance;
-    out.null_deviance = null_deviance;
-    out.df_null = df_null;
-    out.iterations = fit.iterations;
+    let log_likelihood = log_likelihood(data, &response, fit.last.deviance);
+    let mut warnings = Vec::new();
     if fit.halved_iterations > 0 {
-        out.warnings.push(format!(
+        warnings.push(format!(
             "the IRLS step was halved in {} iteration(s) because the deviance increased",
             fit.halved_iterations
         ));
     }
     if separation::extreme(fit.last.min_tail) {
-        out.warnings.push(
+        warnings.push(
             "fitted probabilities numerically 0 or 1 occurred (no separation was found)".into(),
         );
     }
-    Ok(out)
+    let (std_errors, z, p_values) = wald(&fit.beta, &covariance);
+    let k = p as f64;
+    Ok(GlmFit {
+        link: opts.link,
+        terms: data.terms.to_vec(),
+        coefficients: fit.beta,
+        covariance,
+        std_errors,
+        z,
+        p_values,
+        deviance: fit.last.deviance,
+        null_deviance,
+        df_residual: n_obs - p,
+        df_null: n_obs - usize::from(intercept.is_some()),
+        log_likelihood,
+        aic: -2.0 * log_likelihood + 2.0 * k,
+        bic: -2.0 * log_likelihood + k * (n_obs as f64).ln(),
+        iterations: fit.iterations,
+        converged: fit.converged,
+        n_obs,
+        warnings,
+    })
 }
 
 /// Deviance of the intercept-only model with the offset; without an intercept, of η = offset.
@@ -370,15 +386,17 @@ fn null_deviance(problem: &Problem, intercept: Option<usize>) -> Result<f64, Mod
     }
 }
 
-/// Builds the Wald table and information criteria; the caller fills in the deviances.
-fn summarise(
-    coefficients: Vec<f64>,
-    covariance: Vec<Vec<f64>>,
-    log_likelihood: f64,
-    n_obs: usize,
-) -> GlmFit {
-    let p = coefficients.len();
-    let std_errors: Vec<f64> = (0..p).map(|j| covariance[j][j].sqrt()).collect();
+/// Standard errors, Wald statistics and two-sided normal p-values from a covariance.
+///
+/// # Formula
+/// SEⱼ = √Vⱼⱼ, zⱼ = bⱼ / SEⱼ, pⱼ = 2(1 − Φ(|zⱼ|)) computed as 2Φ(−|zⱼ|).
+pub(crate) fn wald(
+    coefficients: &[f64],
+    covariance: &[Vec<f64>],
+) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+    let std_errors: Vec<f64> = (0..coefficients.len())
+        .map(|j| covariance[j][j].sqrt())
+        .collect();
     let z: Vec<f64> = coefficients
         .iter()
         .zip(&std_errors)
@@ -386,25 +404,5 @@ fn summarise(
         .collect();
     let normal = Normal::standard();
     let p_values = z.iter().map(|z| 2.0 * normal.cdf(-z.abs())).collect();
-    let k = p as f64;
-    GlmFit {
-        link: Link::Logit,
-        terms: Vec::new(),
-        coefficients,
-        covariance,
-        std_errors,
-        z,
-        p_values,
-        deviance: f64::NAN,
-        null_deviance: f64::NAN,
-        df_residual: n_obs - p,
-        df_null: n_obs,
-        log_likelihood,
-        aic: -2.0 * log_likelihood + 2.0 * k,
-        bic: -2.0 * log_likelihood + k * (n_obs as f64).ln(),
-        iterations: 0,
-        converged: true,
-        n_obs,
-        warnings: Vec::new(),
-    }
+    (std_errors, z, p_values)
 }

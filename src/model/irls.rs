@@ -65,7 +65,10 @@ pub struct IrlsResult {
 #[derive(Debug, Clone, PartialEq)]
 pub enum IrlsError {
     /// XᵀWX is not positive definite at some iteration.
-    Singular,
+    Singular {
+        /// Weighted least-squares solves completed before it.
+        iterations: usize,
+    },
 }
 
 /// The unit binomial deviance 2[y ln(y/μ) + (1−y) ln((1−y)/(1−μ))], with 0·ln 0 = 0.
@@ -106,7 +109,8 @@ impl Problem<'_> {
         let mut converged = false;
         let mut halved_iterations = 0;
         while iterations < MAX_ITERATIONS {
-            let factor = SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular)?;
+            let factor =
+                SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular { iterations })?;
             let mut beta = factor.solve(&current.xtwz);
             iterations += 1;
             let mut next = self.pass(Some(&beta));
