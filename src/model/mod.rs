@@ -7,7 +7,7 @@ pub mod file;
 pub mod firth;
 pub mod glm;
 pub mod growth;
-pub mod irls;
+pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
 pub mod robust;
