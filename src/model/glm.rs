@@ -289,7 +289,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
     }
     let fit = problem.run(start);
     let suspicious = match &fit {
-        Ok(f) => !f.converged || separation::extreme(f.last.min_tail),
+        Ok(f) => !f.converged || f.last.extreme,
         Err(_) => true,
     };
     if suspicious && n_obs > separation::ALWAYS_CHECK_MAX_ROWS {
@@ -324,7 +324,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
             fit.halved_iterations
         ));
     }
-    if separation::extreme(fit.last.min_tail) {
+    if fit.last.extreme {
         warnings.push(
             "fitted probabilities numerically 0 or 1 occurred (no separation was found)".into(),
         );

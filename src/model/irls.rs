@@ -41,9 +41,9 @@ pub struct Pass {
     pub xtwx: Vec<f64>,
     /// XᵀWz with the working response of the pass (offset removed).
     pub xtwz: Vec<f64>,
-    /// The smallest min(μ, 1 − μ) among rows with non-zero weight (0.5 in the start pass,
-    /// which does not look at it).
-    pub min_tail: f64,
+    /// Whether some row with non-zero weight has a fitted probability within
+    /// [`EXTREME_MU`](crate::model::separation::EXTREME_MU) of 0 or 1 (false in the start pass).
+    pub extreme: bool,
 }
 
 /// The outcome of the IRLS loop.

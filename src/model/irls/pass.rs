@@ -4,14 +4,16 @@
 
 use super::{unit_deviance, Pass, Problem};
 use crate::model::link::{variance, Link, MU_EPS};
+use crate::model::separation::EXTREME_MU;
 
 /// Sums deviance contributions. Unit-weight 0/1 rows contribute −2 ln q, q the fitted
-/// probability of the observed outcome; those q are multiplied 16 at a time (each is at least
-/// `MU_EPS`, so 16 of them cannot underflow) and one logarithm is taken per block.
+/// probability of the observed outcome; those q are multiplied into four independent lanes,
+/// 16 factors per lane (each is at least `MU_EPS`, so 16 of them cannot underflow), and one
+/// logarithm is taken per lane and block.
 #[derive(Debug, Clone, Copy)]
 struct DevianceSum {
     sum: f64,
-    prod: f64,
+    lanes: [f64; 4],
     count: u32,
 }
 
@@ -19,24 +21,31 @@ impl DevianceSum {
     fn new() -> Self {
         DevianceSum {
             sum: 0.0,
-            prod: 1.0,
+            lanes: [1.0; 4],
             count: 0,
         }
     }
 
     #[inline(always)]
-    fn add_prob(&mut self, q: f64) {
-        self.prod *= q;
+    fn add_probs(&mut self, q: &[f64]) {
+        for (lane, &q) in self.lanes.iter_mut().zip(q) {
+            *lane *= q.max(MU_EPS);
+        }
         self.count += 1;
         if self.count == 16 {
-            self.sum -= 2.0 * self.prod.ln();
-            self.prod = 1.0;
-            self.count = 0;
+            self.flush();
         }
     }
 
-    fn total(self) -> f64 {
-        self.sum - 2.0 * self.prod.ln()
+    fn flush(&mut self) {
+        self.sum -= 2.0 * self.lanes.iter().map(|l| l.ln()).sum::<f64>();
+        self.lanes = [1.0; 4];
+        self.count = 0;
+    }
+
+    fn total(mut self) -> f64 {
+        self.flush();
+        self.sum
     }
 }
 
@@ -53,7 +62,7 @@ struct BlockAcc {
     wz: [f64; BLOCK],
     q: [f64; BLOCK],
     dev: DevianceSum,
-    min_tail: f64,
+    extreme: bool,
 }
 
 impl BlockAcc {
@@ -64,7 +73,7 @@ impl BlockAcc {
             wz: [0.0; BLOCK],
             q: [0.0; BLOCK],
             dev: DevianceSum::new(),
-            min_tail: 0.5,
+            extreme: false,
         }
     }
 
@@ -77,7 +86,7 @@ impl BlockAcc {
             },
             xtwx,
             xtwz,
-            min_tail: self.min_tail,
+            extreme: self.extreme,
         }
     }
 }
@@ -156,7 +165,7 @@ impl Problem<'_> {
             .map_or(&ZEROS[..rows], |o| &o[first..first + rows]);
         // Running totals live in locals, not behind `acc`, so they stay in registers.
         let mut dev = acc.dev;
-        let mut tail = acc.min_tail;
+        let mut extreme = acc.extreme;
         let BlockAcc {
             eta,
             w: w_buf,
@@ -184,15 +193,25 @@ impl Problem<'_> {
                     wz_buf[r] = w * eta_lin + wt * (2.0 * y - 1.0) * one_minus_q;
                     q_buf[r] = q;
                 }
-                for (&q, &wt) in q_buf[..rows].iter().zip(wts) {
-                    if wt == 1.0 {
-                        dev.add_prob(q.max(MU_EPS));
-                    } else if wt > 0.0 {
-                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
-                    } else {
+                let is_extreme = |q: f64| q < EXTREME_MU || q > 1.0 - EXTREME_MU;
+                let mut quads = q_buf[..rows].chunks_exact(4).zip(wts.chunks_exact(4));
+                for (q4, w4) in quads.by_ref() {
+                    if w4 == [1.0; 4] {
+                        dev.add_probs(q4);
+                        extreme |= q4.iter().fold(false, |e, &q| e | is_extreme(q));
                         continue;
                     }
-                    tail = tail.min(q.min(1.0 - q));
+                    for (&q, &wt) in q4.iter().zip(w4).filter(|(_, &wt)| wt > 0.0) {
+                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
+                        extreme |= is_extreme(q);
+                    }
+                }
+                let tail = rows - rows % 4;
+                for (&q, &wt) in q_buf[tail..rows].iter().zip(&wts[tail..]) {
+                    if wt > 0.0 {
+                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
+                        extreme |= is_extreme(q);
+                    }
                 }
             }
             true => {
@@ -205,7 +224,7 @@ impl Problem<'_> {
                     let w = wt * d * d / variance(mu);
                     w_buf[r] = w;
                     wz_buf[r] = w * (eta_lin + (y - mu) / d);
-                    tail = tail.min(mu.min(1.0 - mu));
+                    extreme |= mu < EXTREME_MU || mu > 1.0 - EXTREME_MU;
                     dev.sum += wt * unit_deviance(y, mu);
                 }
             }
@@ -227,7 +246,7 @@ impl Problem<'_> {
             }
         }
         acc.dev = dev;
-        acc.min_tail = tail;
+        acc.extreme = extreme;
     }
 
     /// The working weight and w × working response (without offset) at the start
