@@ -193,7 +193,7 @@ impl Problem<'_> {
                     wz_buf[r] = w * eta_lin + wt * (2.0 * y - 1.0) * one_minus_q;
                     q_buf[r] = q;
                 }
-                let is_extreme = |q: f64| q < EXTREME_MU || q > 1.0 - EXTREME_MU;
+                let is_extreme = |q: f64| !(EXTREME_MU..=1.0 - EXTREME_MU).contains(&q);
                 let mut quads = q_buf[..rows].chunks_exact(4).zip(wts.chunks_exact(4));
                 for (q4, w4) in quads.by_ref() {
                     if w4 == [1.0; 4] {
@@ -224,7 +224,7 @@ impl Problem<'_> {
                     let w = wt * d * d / variance(mu);
                     w_buf[r] = w;
                     wz_buf[r] = w * (eta_lin + (y - mu) / d);
-                    extreme |= mu < EXTREME_MU || mu > 1.0 - EXTREME_MU;
+                    extreme |= !(EXTREME_MU..=1.0 - EXTREME_MU).contains(&mu);
                     dev.sum += wt * unit_deviance(y, mu);
                 }
             }
