@@ -114,16 +114,26 @@ impl Problem<'_> {
         let mut a = [[0.0; P]; P];
         let mut b = [0.0; P];
         let mut acc = BlockAcc::new();
-        let coef: [f64; P] = std::array::from_fn(|j| beta.map_or(0.0, |c| c[j]));
+        // The block transposed to columns: the linear predictor and the cross products then
+        // run over contiguous columns, which the compiler vectorises.
+        let mut cols = [[0.0; BLOCK]; P];
         for (k, block) in self.x.chunks(P * BLOCK).enumerate() {
-            if beta.is_some() {
-                for (e, xi) in acc.eta.iter_mut().zip(block.chunks_exact(P)) {
-                    let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
-                    *e = (0..P).map(|j| xi[j] * coef[j]).sum();
+            let rows = block.len() / P;
+            for (r, xi) in block.chunks_exact(P).enumerate() {
+                for (col, &v) in cols.iter_mut().zip(xi) {
+                    col[r] = v;
                 }
             }
-            self.row_block(k * BLOCK, block.len() / P, beta.is_some(), &mut acc);
-            (a, b) = accumulate_fixed(block, &acc.w, &acc.wz, a, b);
+            if let Some(c) = beta {
+                acc.eta[..rows].fill(0.0);
+                for (col, &cj) in cols.iter().zip(c) {
+                    for (e, &v) in acc.eta[..rows].iter_mut().zip(&col[..rows]) {
+                        *e += cj * v;
+                    }
+                }
+            }
+            self.row_block(k * BLOCK, rows, beta.is_some(), &mut acc);
+            accumulate_columns(&cols, rows, &acc.w, &acc.wz, &mut a, &mut b);
         }
         let xtwx = (0..P * P).map(|m| a[(m / P).max(m % P)][(m / P).min(m % P)]);
         acc.finish(beta.is_some(), xtwx.collect(), b.to_vec())
@@ -260,55 +270,45 @@ impl Problem<'_> {
     }
 }
 
-/// Adds Σ w·xxᵀ (lower triangle) and Σ wz·x over a block of rows to `a` and `b`. A separate
-/// function taking and returning the accumulators by value, so that they live in registers
-/// (inlined into the pass loop, LLVM stores them back to memory on every row).
-#[inline(never)]
-fn accumulate_fixed<const P: usize>(
-    block: &[f64],
-    w: &[f64],
-    wz: &[f64],
-    mut a: [[f64; P]; P],
-    mut b: [f64; P],
-) -> ([[f64; P]; P], [f64; P]) {
-    let rows = || block.chunks_exact(P).zip(w.iter().zip(wz));
-    // XᵀWz and the first two rows of the triangle, then two triangle rows per sweep: few
-    // enough accumulators per sweep to stay in registers (the block is in L1).
-    for (xi, (&w, &wz)) in rows() {
-        for j in 0..P {
-            b[j] += wz * xi[j];
+/// Adds Σ w·xxᵀ (lower triangle) and Σ wz·x over the first `rows` rows of a block held as
+/// columns.
+fn accumulate_columns<const P: usize>(
+    cols: &[[f64; BLOCK]; P],
+    rows: usize,
+    w: &[f64; BLOCK],
+    wz: &[f64; BLOCK],
+    a: &mut [[f64; P]; P],
+    b: &mut [f64; P],
+) {
+    let mut wx = [0.0; BLOCK];
+    for j in 0..P {
+        for ((t, &wr), &v) in wx[..rows].iter_mut().zip(&w[..rows]).zip(&cols[j][..rows]) {
+            *t = wr * v;
         }
-        for j in 0..P.min(2) {
-            let wxj = w * xi[j];
-            for k in 0..=j {
-                a[j][k] += wxj * xi[k];
-            }
+        b[j] += dot(&wz[..rows], &cols[j][..rows]);
+        for k in 0..=j {
+            a[j][k] += dot(&wx[..rows], &cols[k][..rows]);
         }
     }
-    for j0 in (2..P).step_by(2) {
-        let mut lo = [0.0; P];
-        let mut hi = [0.0; P];
-        for (xi, &w) in block.chunks_exact(P).zip(w) {
-            let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
-            let wx0 = w * xi[j0];
-            for k in 0..=j0 {
-                lo[k] += wx0 * xi[k];
-            }
-            if j0 + 1 < P {
-                let wx1 = w * xi[j0 + 1];
-                for k in 0..=j0 + 1 {
-                    hi[k] += wx1 * xi[k];
-                }
-            }
-        }
-        for k in 0..P {
-            a[j0][k] += lo[k];
-            if j0 + 1 < P {
-                a[j0 + 1][k] += hi[k];
-            }
+}
+
+/// Σ xᵢyᵢ in eight interleaved partial sums (vectorisable; a fixed summation order).
+#[inline(always)]
+fn dot(x: &[f64], y: &[f64]) -> f64 {
+    let mut lanes = [0.0; 8];
+    let (xs, ys) = (x.chunks_exact(8), y.chunks_exact(8));
+    let tail: f64 = xs
+        .remainder()
+        .iter()
+        .zip(ys.remainder())
+        .map(|(a, b)| a * b)
+        .sum();
+    for (a, b) in xs.zip(ys) {
+        for l in 0..8 {
+            lanes[l] += a[l] * b[l];
         }
     }
-    (a, b)
+    lanes.iter().sum::<f64>() + tail
 }
 
 /// Adds w·xxᵀ (lower triangle) and wz·x for one row.
