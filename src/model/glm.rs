@@ -144,13 +144,32 @@ pub(crate) fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
             return Err(invalid(format!("{name} has {len} values for {n} rows")));
         }
     }
-    if let Some(i) = data.x.iter().position(|v| !v.is_finite()) {
+    // A branch-free scan first (vectorised on contiguous data); the position only on failure.
+    let all_finite = match data.x.as_slice() {
+        Some(xs) => xs.iter().fold(true, |ok, v| ok & v.is_finite()),
+        None => data.x.iter().all(|v| v.is_finite()),
+    };
+    if let Some(i) = (!all_finite)
+        .then(|| data.x.iter().position(|v| !v.is_finite()))
+        .flatten()
+    {
         let (r, c) = (i / data.x.ncols().max(1), i % data.x.ncols().max(1));
         return Err(invalid(format!(
             "row {}: term `{}` is not a finite number",
             r + 1,
             data.terms[c]
         )));
+    }
+    if data.trials.is_none() && data.weights.is_none() && data.offset.is_none() {
+        // The common unweighted 0/1 case, checked without branches; errors fall through to
+        // the row-by-row loop, which names the row.
+        let binary = data
+            .y
+            .iter()
+            .fold(true, |ok, &v| ok & (v == 0.0 || v == 1.0));
+        if binary {
+            return Ok(Response::new(data.y.to_vec(), vec![1.0; n]));
+        }
     }
     let mut y = Vec::with_capacity(n);
     let mut wt = Vec::with_capacity(n);
