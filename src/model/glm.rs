@@ -252,10 +252,15 @@ pub(crate) fn rank_deficient(
     let first = values.next().map(|(row, _)| row[j]);
     let constant = values.all(|(row, _)| Some(row[j]) == first);
     let term = terms[j].clone();
-    let message = if constant {
-        format!("term `{term}` is constant over the records used (the intercept already covers it); drop it")
-    } else {
-        format!("term `{term}` is a linear combination of the other terms (collinear); drop it")
+    let message = match first {
+        Some(v) if constant && v == 0.0 => {
+            format!("term `{term}` is zero for every record used; drop it")
+        }
+        Some(v) if constant && intercept_column(x, p, r).is_some_and(|i| i != j) => format!(
+            "term `{term}` is constant ({v}) over the records used, which the intercept already covers; drop it"
+        ),
+        _ if constant => format!("term `{term}` is constant over the records used and aliases another term; drop one of them"),
+        _ => format!("term `{term}` is a linear combination of the other terms (collinear); drop it"),
     };
     ModelError::RankDeficient { term, message }
 }
