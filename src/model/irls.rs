@@ -10,7 +10,7 @@ use super::linalg::SpdFactor;
 use super::link::Link;
 use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
 
-/// Step-halving gives up after this many halvings and takes the step as it is.
+/// Step-halving gives up after this many halvings; the fit then stops unconverged.
 const MAX_HALVINGS: usize = 30;
 
 /// The response in proportion form: `y` = successes / trials and `wt` = prior weight × trials.
@@ -127,6 +127,11 @@ impl Problem<'_> {
                     halvings += 1;
                 }
                 halved_iterations += usize::from(halvings > 0);
+                if !(next.deviance.is_finite() && next.deviance <= limit) {
+                    // No step along this direction lowers the deviance: stop, not converged
+                    // (a tiny halved step must not pass for convergence).
+                    break;
+                }
             }
             converged = beta_old.as_ref().is_some_and(|old| {
                 let dev_change =
