@@ -165,7 +165,7 @@ impl Problem<'_> {
 
     /// Phase one of a pass over a block of rows: working weight w and w × working response
     /// (offset removed) per row into the block buffers (zero for rows left out), plus the
-    /// deviance and the smallest min(μ, 1 − μ). Kept apart from the accumulation so that the
+    /// deviance and the extreme-probability flag. Kept apart from the accumulation so that the
     /// accumulators stay in registers there (a call to `exp` clobbers every register).
     fn row_block(&self, first: usize, rows: usize, at_beta: bool, acc: &mut BlockAcc) {
         let wts = &self.response.wt[first..first + rows];
@@ -189,7 +189,7 @@ impl Problem<'_> {
                 // With s = 2y − 1 the probability of the observed outcome is q = 1/(1 + e),
                 // e = exp(−s·η), and 1 − q = e·q without cancellation; y − μ = s(1 − q) and
                 // μ(1 − μ) = q(1 − q). Three loops: the exponentials alone, then the
-                // arithmetic (vectorisable), then the deviance and tail (reductions).
+                // arithmetic (vectorisable), then the deviance and extreme flag (reductions).
                 for (q, (&eta_lin, ((_, &y), &off))) in q_buf.iter_mut().zip(data) {
                     *q = ((1.0 - 2.0 * y) * (eta_lin + off)).min(700.0).exp();
                 }
@@ -216,8 +216,8 @@ impl Problem<'_> {
                         extreme |= is_extreme(q);
                     }
                 }
-                let tail = rows - rows % 4;
-                for (&q, &wt) in q_buf[tail..rows].iter().zip(&wts[tail..]) {
+                let done = rows - rows % 4;
+                for (&q, &wt) in q_buf[done..rows].iter().zip(&wts[done..]) {
                     if wt > 0.0 {
                         dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
                         extreme |= is_extreme(q);
