@@ -88,7 +88,7 @@ impl GlmFit {
     ) -> Result<Array1<f64>, ModelError> {
         if x.ncols() != self.coefficients.len() {
             return Err(ModelError::Invalid(format!(
-                "expected {} columns, got {}",
+                "the model has {} coefficients but the design has {} columns",
                 self.coefficients.len(),
                 x.ncols()
             )));
