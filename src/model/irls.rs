@@ -22,13 +22,21 @@ pub struct Response {
     pub wt: Vec<f64>,
     /// True when every proportion is 0 or 1 (enables the logit fast path).
     pub binary: bool,
+    /// True when every weight is 1 (the passes then read no weights).
+    pub unit_weights: bool,
 }
 
 impl Response {
-    /// Builds the response, noting whether every proportion is 0 or 1.
+    /// Builds the response, noting whether every proportion is 0 or 1 and every weight 1.
     pub fn new(y: Vec<f64>, wt: Vec<f64>) -> Self {
-        let binary = y.iter().all(|&v| v == 0.0 || v == 1.0);
-        Response { y, wt, binary }
+        let binary = y.iter().fold(true, |ok, &v| ok & (v == 0.0 || v == 1.0));
+        let unit_weights = wt.iter().fold(true, |ok, &w| ok & (w == 1.0));
+        Response {
+            y,
+            wt,
+            binary,
+            unit_weights,
+        }
     }
 }
 

@@ -55,6 +55,9 @@ const BLOCK: usize = 128;
 /// The offset of rows without one.
 const ZEROS: [f64; BLOCK] = [0.0; BLOCK];
 
+/// The weights of unweighted rows (read from cache instead of memory).
+const ONES: [f64; BLOCK] = [1.0; BLOCK];
+
 /// Per-block buffers and running totals of a pass.
 struct BlockAcc {
     eta: [f64; BLOCK],
@@ -168,7 +171,11 @@ impl Problem<'_> {
     /// deviance and the extreme-probability flag. Kept apart from the accumulation so that the
     /// accumulators stay in registers there (a call to `exp` clobbers every register).
     fn row_block(&self, first: usize, rows: usize, at_beta: bool, acc: &mut BlockAcc) {
-        let wts = &self.response.wt[first..first + rows];
+        let wts = if self.response.unit_weights {
+            &ONES[..rows]
+        } else {
+            &self.response.wt[first..first + rows]
+        };
         let ys = &self.response.y[first..first + rows];
         let offs = self
             .offset
