@@ -112,9 +112,9 @@ pub fn render(page: &Page) -> String {
         escape(&page.caution)
     );
     for (i, section) in page.sections.iter().enumerate() {
-        let _ = write!(
+        let _ = writeln!(
             out,
-            "<section id=\"s{i}\"><h2>{}</h2>\n",
+            "<section id=\"s{i}\"><h2>{}</h2>",
             escape(&section.heading)
         );
         for block in &section.blocks {
