@@ -5,8 +5,11 @@
 //! Layers: [`data`] reads CSV files into validated frames, [`model`] fits and stores models,
 //! [`scenario`] reads projection scenarios, [`project`] runs them, [`report`] writes results.
 
+pub mod atomic;
 pub mod data;
+pub mod demo;
 pub mod error;
+pub mod fit;
 pub mod model;
 pub mod project;
 pub mod report;

@@ -1,8 +1,8 @@
 //! Output files of design §7: names, columns, empty fields, atomic writing; and `check`.
 
-mod common;
+mod project_common;
 
-use common::*;
+use project_common::*;
 use stemcast::project::run_scenario;
 use stemcast::report::write_projection;
 

@@ -9,6 +9,7 @@ use serde::{Deserialize, Serialize};
 
 use super::design::CategoricalLevels;
 use super::ModelError;
+pub use crate::data::Outcome;
 
 /// Survival or growth.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -18,17 +19,6 @@ pub enum ModelKind {
     Survival,
     /// A diameter-growth model (OLS on a transformed response).
     Growth,
-}
-
-/// What the modelled probability is about.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum Outcome {
-    /// P(alive at the end of the period).
-    #[default]
-    Alive,
-    /// P(dead at the end of the period).
-    Dead,
 }
 
 /// How the remeasurement interval enters the survival model (design §4).

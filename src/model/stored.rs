@@ -130,7 +130,9 @@ impl Model {
         };
         let units = match &raw.units {
             None => Units::Metric,
-            Some(u) => u.parse().map_err(|m: String| err("units", m))?,
+            Some(u) => u
+                .parse()
+                .map_err(|m: crate::data::UnknownUnits| err("units", m.to_string()))?,
         };
         if let Some(p) = raw.period_years {
             if !(p > 0.0 && p.is_finite()) {
@@ -168,7 +170,9 @@ impl Model {
                 }
                 let link = match &raw.link {
                     None => return Err(err("link", "missing (logit, probit or cloglog)".into())),
-                    Some(l) => l.parse().map_err(|m: String| err("link", m))?,
+                    Some(l) => l
+                        .parse()
+                        .map_err(|m: super::link::UnknownLink| err("link", m.to_string()))?,
                 };
                 let interval = raw.interval.unwrap_or_default();
                 let outcome = raw.outcome.unwrap_or_default();

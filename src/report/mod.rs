@@ -1,9 +1,10 @@
-//! Writing results: CSV and JSON tables, SVG charts. Every file of a run is rendered in memory
+//! Writing results: CSV and JSON tables, SVG charts, the HTML page ([`html`]). Every file of a run is rendered in memory
 //! first, then written to a temporary file in the target folder and renamed into place, so a
 //! failure leaves no partial output.
 
 mod atomic;
 mod charts;
+pub mod html;
 mod tables;
 
 use std::path::{Path, PathBuf};

@@ -1,0 +1,34 @@
+//! Command-line interface: argument structs (clap derive) and the glue that turns them into
+//! library calls. Only this layer and `main` print.
+
+mod demo;
+mod fit;
+
+use clap::{Parser, Subcommand};
+use stemcast::Error;
+
+/// Fit tree survival and diameter-growth models from remeasured plots, and project stands
+/// forward with uncertainty.
+#[derive(Debug, Parser)]
+#[command(name = "stemcast", version, about, long_about = None, propagate_version = true)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Run the whole chain on the bundled, invented planting trial.
+    Demo(demo::DemoArgs),
+    /// Fit a survival or growth model from a remeasurement CSV.
+    #[command(subcommand)]
+    Fit(Box<fit::FitCommand>),
+}
+
+/// Run the parsed command.
+pub fn run(cli: Cli) -> Result<(), Error> {
+    match cli.command {
+        Command::Demo(a) => demo::run(&a),
+        Command::Fit(c) => fit::run(*c),
+    }
+}

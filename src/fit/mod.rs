@@ -1,0 +1,142 @@
+//! The fitting pipelines behind `stemcast fit survival` and `stemcast fit growth`: resolve the
+//! columns the terms need, load the records, build the design matrix, fit, and assemble the
+//! model file. Rendering the results as text or JSON lives in [`summary`].
+
+pub mod growth;
+pub mod summary;
+pub mod survival;
+
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+use crate::data::{ColumnNames, DerivedCovariate, Required, Units};
+use crate::model::terms::{parse_predictors, Term, DERIVED};
+use crate::model::ModelError;
+
+/// Options shared by both fits: where the data is and how to read it.
+#[derive(Debug, Clone)]
+pub struct DataOptions {
+    /// The remeasurement CSV.
+    pub path: PathBuf,
+    /// Role-column names (`--stand`, `--expansion`, `--dbh`, `--dbh2`, `--status`, ...).
+    pub names: ColumnNames,
+    /// Derived-covariate names to take from the file (`--use-column`).
+    pub use_columns: Vec<String>,
+    /// Columns to treat as categorical (`--categorical`).
+    pub categorical: Vec<String>,
+    /// Reference level per categorical variable (`--reference COL=LEVEL`).
+    pub references: BTreeMap<String, String>,
+    /// Fit an intercept (default) or not (`--no-intercept`).
+    pub intercept: bool,
+    /// Units of diameters and per-area values.
+    pub units: Units,
+}
+
+/// The remeasurement interval as given on the command line.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Years {
+    /// `--years N`: every record has the same interval.
+    Fixed(f64),
+    /// `--years-col COL`: an interval per record.
+    Column(String),
+    /// Neither: use the default `years` column if the file has one, else no period.
+    Default,
+}
+
+/// Parsed predictor terms and the data columns and derived covariates they need.
+#[derive(Debug, Clone)]
+pub struct TermNeeds {
+    /// The terms as written.
+    pub terms: Vec<Term>,
+    /// File columns the terms read.
+    pub required: Vec<Required>,
+    /// Derived covariates to compute.
+    pub derived: Vec<DerivedCovariate>,
+}
+
+/// Parse `--predictors` and work out what the terms need from the file.
+///
+/// # Errors
+/// A term outside the grammar (design §6).
+pub fn term_needs(predictors: &str, use_columns: &[String]) -> Result<TermNeeds, ModelError> {
+    let terms = parse_predictors(predictors)?;
+    if terms.is_empty() {
+        return Err(ModelError::Invalid(
+            "--predictors is empty; give at least one term, e.g. --predictors \"dbh\"".into(),
+        ));
+    }
+    let mut required: Vec<Required> = Vec::new();
+    let mut derived: Vec<DerivedCovariate> = Vec::new();
+    for term in &terms {
+        for factor in &term.factors {
+            let var = factor.var();
+            let computed = DERIVED.contains(&var) && !use_columns.iter().any(|u| u == var);
+            match DerivedCovariate::from_name(var) {
+                Some(d) if computed => {
+                    if !derived.contains(&d) {
+                        derived.push(d);
+                    }
+                }
+                _ => {
+                    if !required.iter().any(|r| r.column == var) {
+                        required.push(Required::new(var, format!("term `{}`", term.label())));
+                    }
+                }
+            }
+        }
+    }
+    Ok(TermNeeds {
+        terms,
+        required,
+        derived,
+    })
+}
+
+/// Parse `COL=LEVEL` reference options.
+///
+/// # Errors
+/// An option without `=`.
+pub fn parse_references(items: &[String]) -> Result<BTreeMap<String, String>, ModelError> {
+    items
+        .iter()
+        .map(|s| {
+            s.split_once('=')
+                .map(|(c, l)| (c.trim().to_string(), l.trim().trim_matches('"').to_string()))
+                .ok_or_else(|| ModelError::Invalid(format!("--reference {s}: expected COL=LEVEL")))
+        })
+        .collect()
+}
+
+/// The common interval of `years`, if all lie within the tolerance of their median.
+///
+/// # Errors
+/// A message pointing to `--interval annualized` / `exposure` when they differ.
+pub fn common_interval(years: &[f64], source: &str) -> Result<f64, ModelError> {
+    let mut sorted: Vec<f64> = years.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let n = sorted.len();
+    if n == 0 {
+        return Err(ModelError::Invalid(format!("{source}: no records")));
+    }
+    let median = if n % 2 == 1 {
+        sorted[n / 2]
+    } else {
+        0.5 * (sorted[n / 2 - 1] + sorted[n / 2])
+    };
+    let (lo, hi) = (sorted[0], sorted[n - 1]);
+    let tol = crate::tolerance::INTERVAL_RTOL * median;
+    if (hi - median).abs() > tol || (median - lo).abs() > tol {
+        return Err(ModelError::Invalid(format!(
+            "{source}: remeasurement intervals range from {lo} to {hi} years, more than 5 % apart; a fixed-interval model needs equal intervals: use --interval annualized (P = p^L) or --interval exposure (cloglog with offset ln L)"
+        )));
+    }
+    Ok(median)
+}
+
+/// Whether the CSV file's header names `column` (false when the file cannot be read: the
+/// loader reports that properly).
+pub fn file_has_column(path: &std::path::Path, column: &str) -> bool {
+    csv::Reader::from_path(path)
+        .and_then(|mut r| r.headers().map(|h| h.iter().any(|c| c.trim() == column)))
+        .unwrap_or(false)
+}
