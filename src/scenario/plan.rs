@@ -109,6 +109,13 @@ pub fn check(s: &Scenario) -> Result<CheckReport, crate::Error> {
             "no model term reads stand covariates: the Monte Carlo mean estimates the expected trajectory".to_string()
         },
     ];
+    for (kind, units) in [("survival", sm.common.units), ("growth", gm.common.units)] {
+        if units == crate::data::Units::Imperial {
+            plan.push(format!(
+                "the {kind} model is in imperial units: its terms see DBH and QMD in inches, basal area in ft²/ac and stems per acre; its predictions are converted back to metric"
+            ));
+        }
+    }
     for (i, a) in s.actions.iter().enumerate() {
         let when = if a.at == 0 {
             "before the first sub-step".to_string()
