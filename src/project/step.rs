@@ -173,9 +173,9 @@ pub(crate) fn sub_step(
         Mortality::Bernoulli(stream) => {
             let s = rng::absorb(stream, k);
             for ((e, &p), &t) in stems.iter_mut().zip(probability).zip(tree.iter()) {
-                if rng::uniform(rng::absorb(s, t as u64)) >= p {
-                    *e = 0.0;
-                }
+                // A select rather than a branch: deaths are random, so a branch mispredicts.
+                let alive = rng::uniform(rng::absorb(s, t as u64)) < p;
+                *e = if alive { *e } else { 0.0 };
                 survived += *e;
             }
         }
