@@ -67,6 +67,11 @@ fn expected_thinning_removes_weight_exactly_from_below() {
         .map(|t| t.dbh_cm)
         .fold(0.0, f64::max);
     assert!(cut_max <= kept_min, "{cut_max} > {kept_min}");
+    // trees.csv's cumulative survival is model survival only: 0.9² at year 10 even for the
+    // records the thinning took (derived analytically).
+    assert!(rows
+        .iter()
+        .all(|t| close(t.cumulative_survival, 0.81, 1e-12, 0.0)));
 }
 
 #[test]

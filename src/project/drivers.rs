@@ -255,7 +255,7 @@ impl<'a> Engine<'a> {
                     tree: list.tree_ids[r].clone(),
                     year,
                     dbh_cm: stand.dbh[i],
-                    cumulative_survival: stand.stems[i] / list.stems_per_ha[r],
+                    cumulative_survival: stand.survival_by_record[r],
                     stems_per_ha: stand.stems[i],
                 }
             }));

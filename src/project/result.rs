@@ -128,7 +128,8 @@ pub struct TreeRow {
     pub year: f64,
     /// DBH, cm.
     pub dbh_cm: f64,
-    /// Expected stems now ÷ stems at year 0.
+    /// Product of the record's survival probabilities so far (removals by thinning are not
+    /// mortality).
     pub cumulative_survival: f64,
     /// Expected stems per hectare.
     pub stems_per_ha: f64,

@@ -39,6 +39,9 @@ pub(crate) struct Stand {
     pub bal: Vec<f64>,
     pub eta: Vec<f64>,
     pub tmp: Vec<f64>,
+    /// Expected driver: product of survival probabilities per record, indexed by record (not
+    /// by position), so removals by thinning do not count as mortality.
+    pub survival_by_record: Vec<f64>,
     /// Scratch of the counting sort.
     counts: Vec<u32>,
     key: Vec<u32>,
@@ -85,6 +88,8 @@ impl Stand {
             v.clear();
             v.resize(n, 0.0);
         }
+        self.survival_by_record.clear();
+        self.survival_by_record.resize(n, 1.0);
     }
 
     /// Number of live records.

@@ -147,6 +147,7 @@ pub(crate) fn sub_step(
         bal,
         eta,
         tmp,
+        survival_by_record,
         ..
     } = stand;
     let cov = Covariates {
@@ -165,9 +166,10 @@ pub(crate) fn sub_step(
     let mut survived = 0.0;
     match ctx.mortality {
         Mortality::Expected => {
-            for (e, &p) in stems.iter_mut().zip(probability) {
+            for ((e, &p), &t) in stems.iter_mut().zip(probability).zip(tree.iter()) {
                 *e *= p;
                 survived += *e;
+                survival_by_record[t as usize] *= p;
             }
         }
         Mortality::Bernoulli(stream) => {
