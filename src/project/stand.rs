@@ -241,21 +241,23 @@ impl Stand {
         self.insertion_pass();
     }
 
-    /// Insertion sort (descending, stable); linear on data sorted up to short runs.
+    /// Insertion sort (descending, stable); linear on data sorted up to short runs. After the
+    /// counting sort records move a position or two, so the shift is a plain loop rather than
+    /// three `memmove` calls.
     fn insertion_pass(&mut self) {
         for i in 1..self.dbh.len() {
             let d = self.dbh[i];
             if self.dbh[i - 1] >= d {
                 continue;
             }
-            let mut k = i - 1;
+            let (e, t) = (self.stems[i], self.tree[i]);
+            let mut k = i;
             while k > 0 && self.dbh[k - 1] < d {
+                self.dbh[k] = self.dbh[k - 1];
+                self.stems[k] = self.stems[k - 1];
+                self.tree[k] = self.tree[k - 1];
                 k -= 1;
             }
-            let (e, t) = (self.stems[i], self.tree[i]);
-            self.dbh.copy_within(k..i, k + 1);
-            self.stems.copy_within(k..i, k + 1);
-            self.tree.copy_within(k..i, k + 1);
             self.dbh[k] = d;
             self.stems[k] = e;
             self.tree[k] = t;
