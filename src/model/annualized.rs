@@ -5,10 +5,10 @@
 use ndarray::ArrayView1;
 use serde::Serialize;
 
-use super::glm::{wald, GlmData};
+use super::glm::{wald, FitControl, GlmData};
 use super::linalg::SpdFactor;
 use super::ModelError;
-use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
+use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL};
 
 /// Step-halvings tried before giving up on a Newton step.
 const MAX_HALVINGS: usize = 30;
@@ -133,6 +133,18 @@ fn check(data: &GlmData, years: ArrayView1<f64>) -> Result<usize, ModelError> {
 /// [`ModelError::Invalid`] for bad input, [`ModelError::NotConverged`] when Newton fails
 /// (including a Hessian that is not negative definite at the end, e.g. under separation).
 pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<AnnualizedFit, ModelError> {
+    fit_annualized_with(data, years, &FitControl::default())
+}
+
+/// [`fit_annualized`] with explicit iteration limits.
+///
+/// # Errors
+/// As [`fit_annualized`]; [`ModelError::NotConverged`] after `control.max_iterations` steps.
+pub fn fit_annualized_with(
+    data: &GlmData,
+    years: ArrayView1<f64>,
+    control: &FitControl,
+) -> Result<AnnualizedFit, ModelError> {
     let n_obs = check(data, years)?;
     let p = data.x.ncols();
     let failed = |iterations, ll: f64| {
@@ -144,7 +156,7 @@ pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<Annualiz
     };
     let mut beta = vec![0.0; p];
     let (mut ll, mut grad, mut hess) = evaluate(data, years, &beta);
-    for iteration in 1..=MAX_ITERATIONS {
+    for iteration in 1..=control.max_iterations {
         let info: Vec<f64> = hess.iter().map(|h| -h).collect();
         let delta = SpdFactor::new(&info, p)
             .map(|f| f.solve(&grad))
@@ -179,7 +191,7 @@ pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<Annualiz
             return Ok(finish(data, beta, covariance, ll, iteration, n_obs));
         }
     }
-    Err(failed(MAX_ITERATIONS, ll))
+    Err(failed(control.max_iterations, ll))
 }
 
 fn finish(

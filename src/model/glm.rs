@@ -11,6 +11,7 @@ use super::linalg::{first_aliased_column, SpdFactor};
 use super::link::Link;
 use super::separation::{self, Separation};
 use super::ModelError;
+use crate::tolerance::MAX_ITERATIONS;
 
 /// The data of one binomial GLM fit. Rows whose weight (prior weight × trials) is zero are
 /// left out of every sum and count.
@@ -35,6 +36,39 @@ pub struct GlmData<'a> {
 pub struct GlmOptions {
     /// The link function.
     pub link: Link,
+}
+
+/// Limits of an iterative fit: IRLS ([`fit_glm_with`]), Firth's Newton iterations
+/// ([`crate::model::firth::fit_firth_with`]) and the annualised Newton fit
+/// ([`crate::model::annualized::fit_annualized_with`]).
+///
+/// # Examples
+/// ```
+/// use stemcast::model::glm::FitControl;
+/// let control = FitControl::default().max_iterations(10);
+/// assert_eq!(control.max_iterations, 10);
+/// assert_eq!(FitControl::default().max_iterations, stemcast::tolerance::MAX_ITERATIONS);
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct FitControl {
+    /// Iterations (weighted least-squares solves or Newton steps) before the fit gives up with
+    /// [`ModelError::NotConverged`]; default [`MAX_ITERATIONS`].
+    pub max_iterations: usize,
+}
+
+impl Default for FitControl {
+    fn default() -> Self {
+        FitControl {
+            max_iterations: MAX_ITERATIONS,
+        }
+    }
+}
+
+impl FitControl {
+    /// The same control with at most `n` iterations.
+    pub fn max_iterations(self, n: usize) -> Self {
+        FitControl { max_iterations: n }
+    }
 }
 
 /// A fitted binomial GLM: estimates, their covariance and the fit statistics. It holds no data.
@@ -278,6 +312,19 @@ pub(crate) fn rank_deficient(
 /// naming an aliased term, [`ModelError::Separation`] when the MLE does not exist, and
 /// [`ModelError::NotConverged`] after [`crate::tolerance::MAX_ITERATIONS`] iterations.
 pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> {
+    fit_glm_with(data, opts, &FitControl::default())
+}
+
+/// [`fit_glm`] with explicit iteration limits.
+///
+/// # Errors
+/// As [`fit_glm`]; [`ModelError::NotConverged`] names the iteration count when IRLS stops at
+/// `control.max_iterations` without meeting the stopping rules and no separation explains it.
+pub fn fit_glm_with(
+    data: &GlmData,
+    opts: &GlmOptions,
+    control: &FitControl,
+) -> Result<GlmFit, ModelError> {
     let response = prepare_response(data)?;
     let n_obs = response.wt.iter().filter(|&&w| w > 0.0).count();
     let p = data.x.ncols();
@@ -311,7 +358,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
             return Err(separation_error(s));
         }
     }
-    let fit = problem.run(start);
+    let fit = problem.run_limited(start, control.max_iterations);
     let suspicious = match &fit {
         Ok(f) => !f.converged || f.last.extreme,
         Err(_) => true,
@@ -329,10 +376,18 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
         },
     )?;
     if !fit.converged {
+        let hint = if fit.iterations >= control.max_iterations {
+            format!(
+                "the limit of {} iterations was reached; raise it, or check the data for extreme values or try another link",
+                control.max_iterations
+            )
+        } else {
+            "no step along the IRLS direction lowered the deviance; check the data for extreme values or try another link".into()
+        };
         return Err(ModelError::NotConverged {
             iterations: fit.iterations,
             deviance: fit.last.deviance,
-            hint: "check the data for extreme values or try another link".into(),
+            hint,
         });
     }
     let covariance = SpdFactor::new(&fit.last.xtwx, p)
