@@ -4,7 +4,10 @@
 //! 128 rows (see `pass`): the linear predictor, μ, the deviance and the lower triangle of XᵀWX
 //! and XᵀWz are accumulated together, with no n-sized temporaries and nothing allocated per row.
 
+mod blocked;
 mod pass;
+
+pub(crate) use blocked::weighted_cross_products;
 
 use super::linalg::SpdFactor;
 use super::link::Link;
