@@ -1,8 +1,10 @@
 //! Command-line interface: argument structs (clap derive) and the glue that turns them into
 //! library calls. Only this layer and `main` print.
 
+mod check;
 mod demo;
 mod fit;
+mod project;
 
 use clap::{Parser, Subcommand};
 use stemcast::Error;
@@ -20,6 +22,10 @@ pub struct Cli {
 enum Command {
     /// Run the whole chain on the bundled, invented planting trial.
     Demo(demo::DemoArgs),
+    /// Validate a scenario and its models and print the projection plan.
+    Check(check::Args),
+    /// Project one scenario: Monte Carlo replicates (or the expected-value trajectory).
+    Project(project::Args),
     /// Fit a survival or growth model from a remeasurement CSV.
     #[command(subcommand)]
     Fit(Box<fit::FitCommand>),
@@ -29,6 +35,8 @@ enum Command {
 pub fn run(cli: Cli) -> Result<(), Error> {
     match cli.command {
         Command::Demo(a) => demo::run(&a),
+        Command::Check(a) => check::run(&a),
+        Command::Project(a) => project::run(&a),
         Command::Fit(c) => fit::run(*c),
     }
 }
