@@ -7,6 +7,7 @@ mod glm_common;
 
 use glm_common::*;
 use stemcast::model::glm::{fit_glm, GlmFit, GlmOptions};
+use stemcast::model::separation::{find_separation, SeparationKind};
 use stemcast::model::ModelError;
 
 fn fit_case(name: &str) -> (GlmFit, serde_json::Value) {
@@ -21,6 +22,7 @@ fn check_against_fixture(name: &str) {
     let (fit, c) = fit_case(name);
     let e = &c["expected"];
     assert!(fit.converged, "{name}: converged");
+    assert!(fit.warnings.is_empty(), "{name}: {:?}", fit.warnings);
     let p = fit.coefficients.len();
     assert_eq!(
         p,
@@ -239,4 +241,16 @@ fn endometrial_is_refused_as_quasi_complete_by_nv() {
         }
         other => panic!("expected separation, got {other:?}"),
     }
+}
+
+// The public check agrees: endometrial_firth.json (quasi-complete, nv); birthwt_logit.json has
+// a maximum-likelihood estimate (statsmodels and R converge to it).
+#[test]
+fn find_separation_on_fixtures() {
+    let d = case_data(&case("endometrial_firth"));
+    let s = find_separation(&glm_data(&d)).unwrap().unwrap();
+    assert_eq!(s.kind, SeparationKind::QuasiComplete);
+    assert_eq!(s.terms, vec!["nv".to_string()]);
+    let d = case_data(&case("birthwt_logit"));
+    assert_eq!(find_separation(&glm_data(&d)).unwrap(), None);
 }

@@ -6,7 +6,7 @@ use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
 use statrs::function::gamma::ln_gamma;
 
-use super::irls::{Problem, Response};
+use super::irls::{unit_deviance, IrlsError, Problem, Response};
 use super::linalg::{first_aliased_column, SpdFactor};
 use super::link::Link;
 use super::separation::{self, Separation};
@@ -75,6 +75,8 @@ pub struct GlmFit {
     pub converged: bool,
     /// Rows with non-zero weight.
     pub n_obs: usize,
+    /// Things the user should know about the fit (step-halving, fitted probabilities at 0 or 1).
+    pub warnings: Vec<String>,
 }
 
 impl GlmFit {
@@ -123,7 +125,7 @@ fn invalid(message: String) -> ModelError {
 }
 
 /// Checks the shapes and values of `data` and returns the response in proportion form.
-fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
+pub(crate) fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
     let n = data.x.nrows();
     if data.terms.len() != data.x.ncols() {
         return Err(invalid(format!(
@@ -184,33 +186,31 @@ fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
             }
         }
     }
-    Ok(Response { y, wt })
+    Ok(Response::new(y, wt))
 }
 
-/// The full binomial log-likelihood at fitted probabilities `mu`.
+/// The full binomial log-likelihood from the deviance: ℓ = −D/2 + ℓ_saturated.
 ///
 /// # Formula
-/// 0/1 rows: Σ wᵢ [yᵢ ln μᵢ + (1 − yᵢ) ln(1 − μᵢ)]. Successes sᵢ of nᵢ trials:
-/// Σ wᵢ [ln C(nᵢ, sᵢ) + sᵢ ln μᵢ + (nᵢ − sᵢ) ln(1 − μᵢ)], ln C via ln Γ.
-fn log_likelihood(data: &GlmData, r: &Response, mu: impl Iterator<Item = f64>) -> f64 {
-    let mut ll = 0.0;
-    for (i, m) in mu.enumerate() {
-        if r.wt[i] == 0.0 {
-            continue;
-        }
-        let (y, w) = (r.y[i], r.wt[i]);
-        let mut term = w * (y * m.ln() + (1.0 - y) * (-m).ln_1p());
-        if y == 0.0 || y == 1.0 {
-            term = w * if y == 1.0 { m.ln() } else { (-m).ln_1p() };
-        }
-        if let Some(t) = data.trials {
-            let (n, s) = (t[i], data.y[i]);
+/// 0/1 rows: ℓ = Σ wᵢ [yᵢ ln μᵢ + (1 − yᵢ) ln(1 − μᵢ)] = −D/2 (the saturated model fits 0/1
+/// exactly). Successes sᵢ of nᵢ trials with prior weight wᵢ, proportion yᵢ = sᵢ/nᵢ:
+/// ℓ = Σ wᵢ [ln C(nᵢ, sᵢ) + sᵢ ln μᵢ + (nᵢ − sᵢ) ln(1 − μᵢ)]
+///   = −D/2 + Σ wᵢ [ln C(nᵢ, sᵢ) + nᵢ (yᵢ ln yᵢ + (1 − yᵢ) ln(1 − yᵢ))], ln C via ln Γ.
+pub(crate) fn log_likelihood(data: &GlmData, r: &Response, deviance: f64) -> f64 {
+    let Some(trials) = data.trials else {
+        return -deviance / 2.0;
+    };
+    let xlogx = |v: f64| if v > 0.0 { v * v.ln() } else { 0.0 };
+    let saturated: f64 = (0..r.y.len())
+        .filter(|&i| r.wt[i] > 0.0)
+        .map(|i| {
+            let (n, s) = (trials[i], data.y[i]);
             let prior = data.weights.map_or(1.0, |w| w[i]);
-            term += prior * (ln_gamma(n + 1.0) - ln_gamma(s + 1.0) - ln_gamma(n - s + 1.0));
-        }
-        ll += term;
-    }
-    ll
+            let ln_choose = ln_gamma(n + 1.0) - ln_gamma(s + 1.0) - ln_gamma(n - s + 1.0);
+            prior * ln_choose + r.wt[i] * (xlogx(r.y[i]) + xlogx(1.0 - r.y[i]))
+        })
+        .sum();
+    -deviance / 2.0 + saturated
 }
 
 /// Index of a column of ones (over rows with non-zero weight), the model's intercept.
@@ -222,7 +222,13 @@ fn intercept_column(x: &[f64], p: usize, r: &Response) -> Option<usize> {
     })
 }
 
-fn rank_deficient(x: &[f64], p: usize, r: &Response, terms: &[String], j: usize) -> ModelError {
+pub(crate) fn rank_deficient(
+    x: &[f64],
+    p: usize,
+    r: &Response,
+    terms: &[String],
+    j: usize,
+) -> ModelError {
     let mut values = x.chunks_exact(p).zip(&r.wt).filter(|(_, &w)| w > 0.0);
     let first = values.next().map(|(row, _)| row[j]);
     let constant = values.all(|(row, _)| Some(row[j]) == first);
@@ -241,7 +247,7 @@ fn rank_deficient(x: &[f64], p: usize, r: &Response, terms: &[String], j: usize)
 /// Starts from μ = (w·y + ½)/(w + 1), stops when the relative deviance change is below
 /// [`crate::tolerance::IRLS_DEVIANCE_RTOL`] and the largest relative coefficient change
 /// (|Δβ|/(|β| + 0.1)) below [`crate::tolerance::IRLS_COEF_RTOL`], halving steps that increase the
-/// deviance. Separation is checked as [`separation::needs_check`] describes.
+/// deviance. Separation is checked as the [`separation`] module documents.
 ///
 /// # Errors
 /// [`ModelError::Invalid`] for inconsistent shapes or values, [`ModelError::RankDeficient`]
@@ -283,7 +289,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
     }
     let fit = problem.run(start);
     let suspicious = match &fit {
-        Ok(f) => !f.converged || separation::extreme(f.last.mu_range),
+        Ok(f) => !f.converged || separation::extreme(f.last.min_tail),
         Err(_) => true,
     };
     if suspicious && n_obs > separation::ALWAYS_CHECK_MAX_ROWS {
@@ -291,11 +297,13 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
             return Err(separation_error(s));
         }
     }
-    let fit = fit.map_err(|_| ModelError::NotConverged {
-        iterations: 0,
-        deviance: f64::NAN,
-        hint: "the information matrix became singular; check for near-collinear terms".into(),
-    })?;
+    let fit = fit.map_err(
+        |IrlsError::Singular { iterations }| ModelError::NotConverged {
+            iterations,
+            deviance: f64::NAN,
+            hint: "the information matrix became singular; check for near-collinear terms".into(),
+        },
+    )?;
     if !fit.converged {
         return Err(ModelError::NotConverged {
             iterations: fit.iterations,
@@ -308,26 +316,61 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
         .inverse();
     let intercept = intercept_column(xs, p, &response);
     let null_deviance = null_deviance(&problem, intercept)?;
-    let beta = Array1::from(fit.beta.clone());
-    let mut eta = x.dot(&beta);
-    if let Some(o) = &offset {
-        eta += &ArrayView1::from(o.as_slice());
+    let log_likelihood = log_likelihood(data, &response, fit.last.deviance);
+    let mut warnings = Vec::new();
+    if fit.halved_iterations > 0 {
+        warnings.push(format!(
+            "the IRLS step was halved in {} iteration(s) because the deviance increased",
+            fit.halved_iterations
+        ));
     }
-    let ll = log_likelihood(data, &response, eta.iter().map(|&e| opts.link.inverse(e)));
-    let df_null = n_obs - usize::from(intercept.is_some());
-    let mut out = summarise(fit.beta, covariance, ll, n_obs);
-    out.link = opts.link;
-    out.terms = data.terms.to_vec();
-    out.deviance = fit.last.deviance;
-    out.null_deviance = null_deviance;
-    out.df_null = df_null;
-    out.iterations = fit.iterations;
-    Ok(out)
+    if separation::extreme(fit.last.min_tail) {
+        warnings.push(
+            "fitted probabilities numerically 0 or 1 occurred (no separation was found)".into(),
+        );
+    }
+    let (std_errors, z, p_values) = wald(&fit.beta, &covariance);
+    let k = p as f64;
+    Ok(GlmFit {
+        link: opts.link,
+        terms: data.terms.to_vec(),
+        coefficients: fit.beta,
+        covariance,
+        std_errors,
+        z,
+        p_values,
+        deviance: fit.last.deviance,
+        null_deviance,
+        df_residual: n_obs - p,
+        df_null: n_obs - usize::from(intercept.is_some()),
+        log_likelihood,
+        aic: -2.0 * log_likelihood + 2.0 * k,
+        bic: -2.0 * log_likelihood + k * (n_obs as f64).ln(),
+        iterations: fit.iterations,
+        converged: fit.converged,
+        n_obs,
+        warnings,
+    })
 }
 
 /// Deviance of the intercept-only model with the offset; without an intercept, of η = offset.
+/// Without an offset the intercept-only estimate is the weighted mean μ̂ = Σ wy / Σ w.
 fn null_deviance(problem: &Problem, intercept: Option<usize>) -> Result<f64, ModelError> {
-    let n = problem.response.wt.len();
+    let r = problem.response;
+    if intercept.is_some() && problem.offset.is_none() {
+        let total: f64 = r.wt.iter().sum();
+        let mu = r.wt.iter().zip(&r.y).map(|(w, y)| w * y).sum::<f64>() / total;
+        let (mut ones, mut zeros, mut other) = (0.0, 0.0, 0.0);
+        for (&w, &y) in r.wt.iter().zip(&r.y).filter(|(&w, _)| w > 0.0) {
+            match y {
+                1.0 => ones += w,
+                0.0 => zeros += w,
+                _ => other += w * unit_deviance(y, mu),
+            }
+        }
+        return Ok(-2.0 * (ones * mu.ln() + zeros * (-mu).ln_1p()) + other);
+    }
+    let n = r.wt.len();
     let ones = vec![1.0; n];
     let null = Problem {
         x: &ones,
@@ -343,15 +386,17 @@ fn null_deviance(problem: &Problem, intercept: Option<usize>) -> Result<f64, Mod
     }
 }
 
-/// Builds the Wald table and information criteria; the caller fills in the deviances.
-fn summarise(
-    coefficients: Vec<f64>,
-    covariance: Vec<Vec<f64>>,
-    log_likelihood: f64,
-    n_obs: usize,
-) -> GlmFit {
-    let p = coefficients.len();
-    let std_errors: Vec<f64> = (0..p).map(|j| covariance[j][j].sqrt()).collect();
+/// Standard errors, Wald statistics and two-sided normal p-values from a covariance.
+///
+/// # Formula
+/// SEⱼ = √Vⱼⱼ, zⱼ = bⱼ / SEⱼ, pⱼ = 2(1 − Φ(|zⱼ|)) computed as 2Φ(−|zⱼ|).
+pub(crate) fn wald(
+    coefficients: &[f64],
+    covariance: &[Vec<f64>],
+) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+    let std_errors: Vec<f64> = (0..coefficients.len())
+        .map(|j| covariance[j][j].sqrt())
+        .collect();
     let z: Vec<f64> = coefficients
         .iter()
         .zip(&std_errors)
@@ -359,24 +404,5 @@ fn summarise(
         .collect();
     let normal = Normal::standard();
     let p_values = z.iter().map(|z| 2.0 * normal.cdf(-z.abs())).collect();
-    let k = p as f64;
-    GlmFit {
-        link: Link::Logit,
-        terms: Vec::new(),
-        coefficients,
-        covariance,
-        std_errors,
-        z,
-        p_values,
-        deviance: f64::NAN,
-        null_deviance: f64::NAN,
-        df_residual: n_obs - p,
-        df_null: n_obs,
-        log_likelihood,
-        aic: -2.0 * log_likelihood + 2.0 * k,
-        bic: -2.0 * log_likelihood + k * (n_obs as f64).ln(),
-        iterations: 0,
-        converged: true,
-        n_obs,
-    }
+    (std_errors, z, p_values)
 }

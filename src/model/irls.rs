@@ -1,11 +1,13 @@
 //! The iteratively reweighted least squares engine behind [`crate::model::glm::fit_glm`].
 //!
-//! Each iteration is one pass over the rows: the linear predictor, μ, the deviance and the
-//! upper triangle of XᵀWX and XᵀWz are accumulated together from one contiguous row at a time,
-//! with no n-sized temporaries. The design matrix is row-major and contiguous.
+//! Each iteration is one pass over the rows of the contiguous row-major design, in blocks of
+//! 128 rows (see `pass`): the linear predictor, μ, the deviance and the lower triangle of XᵀWX
+//! and XᵀWz are accumulated together, with no n-sized temporaries and nothing allocated per row.
+
+mod pass;
 
 use super::linalg::SpdFactor;
-use super::link::{variance, Link};
+use super::link::Link;
 use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
 
 /// Step-halving gives up after this many halvings and takes the step as it is.
@@ -18,6 +20,16 @@ pub struct Response {
     pub y: Vec<f64>,
     /// Total weight of the row (prior weight × number of trials); 0 leaves the row out.
     pub wt: Vec<f64>,
+    /// True when every proportion is 0 or 1 (enables the logit fast path).
+    pub binary: bool,
+}
+
+impl Response {
+    /// Builds the response, noting whether every proportion is 0 or 1.
+    pub fn new(y: Vec<f64>, wt: Vec<f64>) -> Self {
+        let binary = y.iter().all(|&v| v == 0.0 || v == 1.0);
+        Response { y, wt, binary }
+    }
 }
 
 /// What one pass over the rows produces.
@@ -29,8 +41,9 @@ pub struct Pass {
     pub xtwx: Vec<f64>,
     /// XᵀWz with the working response of the pass (offset removed).
     pub xtwz: Vec<f64>,
-    /// Smallest and largest fitted μ among rows with non-zero weight.
-    pub mu_range: (f64, f64),
+    /// The smallest min(μ, 1 − μ) among rows with non-zero weight (0.5 in the start pass,
+    /// which does not look at it).
+    pub min_tail: f64,
 }
 
 /// The outcome of the IRLS loop.
@@ -44,13 +57,18 @@ pub struct IrlsResult {
     pub iterations: usize,
     /// Whether both stopping rules were met.
     pub converged: bool,
+    /// Iterations in which the step had to be halved because the deviance increased.
+    pub halved_iterations: usize,
 }
 
 /// Why IRLS could not continue.
 #[derive(Debug, Clone, PartialEq)]
 pub enum IrlsError {
     /// XᵀWX is not positive definite at some iteration.
-    Singular,
+    Singular {
+        /// Weighted least-squares solves completed before it.
+        iterations: usize,
+    },
 }
 
 /// The unit binomial deviance 2[y ln(y/μ) + (1−y) ln((1−y)/(1−μ))], with 0·ln 0 = 0.
@@ -81,52 +99,6 @@ pub struct Problem<'a> {
 }
 
 impl Problem<'_> {
-    /// One pass at `beta`, or at the starting values μ = (wt·y + ½)/(wt + 1) when `beta` is None.
-    pub fn pass(&self, beta: Option<&[f64]>) -> Pass {
-        let p = self.p;
-        let mut xtwx = vec![0.0; p * p];
-        let mut xtwz = vec![0.0; p];
-        let mut deviance = 0.0;
-        let mut mu_range = (f64::INFINITY, f64::NEG_INFINITY);
-        let rows = self.x.chunks_exact(p);
-        for (i, xi) in rows.enumerate() {
-            let wt = self.response.wt[i];
-            if wt == 0.0 {
-                continue;
-            }
-            let y = self.response.y[i];
-            let off = self.offset.map_or(0.0, |o| o[i]);
-            let (eta, mu, d) = match beta {
-                Some(b) => {
-                    let eta = xi.iter().zip(b).map(|(a, c)| a * c).sum::<f64>() + off;
-                    let (mu, d) = self.link.inverse_and_derivative(eta);
-                    (eta, mu, d)
-                }
-                None => {
-                    let mu = (wt * y + 0.5) / (wt + 1.0);
-                    let eta = self.link.link(mu);
-                    (eta, mu, self.link.mu_eta(eta))
-                }
-            };
-            mu_range = (mu_range.0.min(mu), mu_range.1.max(mu));
-            deviance += wt * unit_deviance(y, mu);
-            let w = wt * d * d / variance(mu);
-            let z = eta - off + (y - mu) / d;
-            accumulate(&mut xtwx, &mut xtwz, xi, w, w * z);
-        }
-        for j in 0..p {
-            for k in j + 1..p {
-                xtwx[j * p + k] = xtwx[k * p + j];
-            }
-        }
-        Pass {
-            deviance,
-            xtwx,
-            xtwz,
-            mu_range,
-        }
-    }
-
     /// Runs IRLS from the pass at the starting values until both stopping rules of design §4
     /// hold or [`MAX_ITERATIONS`] solves have been made, halving the step whenever the deviance
     /// increases.
@@ -135,8 +107,10 @@ impl Problem<'_> {
         let mut beta_old: Option<Vec<f64>> = None;
         let mut iterations = 0;
         let mut converged = false;
+        let mut halved_iterations = 0;
         while iterations < MAX_ITERATIONS {
-            let factor = SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular)?;
+            let factor =
+                SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular { iterations })?;
             let mut beta = factor.solve(&current.xtwz);
             iterations += 1;
             let mut next = self.pass(Some(&beta));
@@ -152,6 +126,7 @@ impl Problem<'_> {
                     next = self.pass(Some(&beta));
                     halvings += 1;
                 }
+                halved_iterations += usize::from(halvings > 0);
             }
             converged = beta_old.as_ref().is_some_and(|old| {
                 let dev_change =
@@ -174,20 +149,7 @@ impl Problem<'_> {
             last: current,
             iterations,
             converged,
+            halved_iterations,
         })
-    }
-}
-
-/// Adds w·xxᵀ (lower triangle) and wz·x for one row.
-#[inline]
-fn accumulate(xtwx: &mut [f64], xtwz: &mut [f64], xi: &[f64], w: f64, wz: f64) {
-    let p = xi.len();
-    for (j, &xj) in xi.iter().enumerate() {
-        let wxj = w * xj;
-        xtwz[j] += wz * xj;
-        let row = &mut xtwx[j * p..j * p + j + 1];
-        for (a, &xk) in row.iter_mut().zip(&xi[..=j]) {
-            *a += wxj * xk;
-        }
     }
 }

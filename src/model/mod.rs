@@ -1,15 +1,18 @@
 //! Model specification, fitting and storage: predictor terms, the binomial GLM (IRLS), the
 //! growth OLS, diagnostics, and the model file format.
 
+pub mod annualized;
 pub mod design;
 pub mod diagnostics;
 pub mod file;
+pub mod firth;
 pub mod glm;
 pub mod growth;
-pub mod irls;
+pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
 mod lsq;
+pub mod robust;
 pub mod separation;
 pub mod stored;
 pub mod survival;

@@ -13,7 +13,9 @@ use std::collections::HashSet;
 
 use microlp::{ComparisonOp, OptimizationDirection, Problem, Variable};
 
+use super::glm::{prepare_response, GlmData};
 use super::irls::Response;
+use super::ModelError;
 
 /// Data with at most this many records of non-zero weight are always checked.
 pub const ALWAYS_CHECK_MAX_ROWS: usize = 20_000;
@@ -53,9 +55,24 @@ pub struct Separation {
     pub terms: Vec<String>,
 }
 
-/// True when fitted probabilities reach within [`EXTREME_MU`] of 0 or 1.
-pub fn extreme((min_mu, max_mu): (f64, f64)) -> bool {
-    min_mu < EXTREME_MU || max_mu > 1.0 - EXTREME_MU
+/// Runs the separation check on a data set whatever its size (for example to explain why a
+/// Firth fit was chosen).
+///
+/// # Errors
+/// [`ModelError::Invalid`] for inconsistent shapes or values, as [`fit_glm`](super::glm::fit_glm).
+pub fn find_separation(data: &GlmData) -> Result<Option<Separation>, ModelError> {
+    let r = prepare_response(data)?;
+    let x = data.x.as_standard_layout();
+    let xs = x
+        .as_slice()
+        .ok_or_else(|| ModelError::Invalid("design matrix layout".into()))?;
+    Ok(detect(xs, data.x.ncols(), &r, data.terms))
+}
+
+/// True when some fitted probability is within [`EXTREME_MU`] of 0 or 1, given the smallest
+/// min(μ, 1 − μ) over the records.
+pub fn extreme(min_tail: f64) -> bool {
+    min_tail < EXTREME_MU
 }
 
 /// One distinct constraint row: signed, scaled covariates and whether it must hold with
@@ -115,7 +132,7 @@ fn add_rows(lp: &mut Problem, beta: &[Variable], rows: &[Row], margin: Option<Va
 /// It is complete when a second program, maximise t subject to ỹᵢ xᵢᵀβ ≥ t, 0 ≤ t ≤ 1, in the
 /// same box, has a positive optimum (a direction that classifies every record strictly);
 /// otherwise quasi-complete. A solver failure is reported as no separation found.
-pub fn detect(x: &[f64], p: usize, r: &Response, terms: &[String]) -> Option<Separation> {
+pub(crate) fn detect(x: &[f64], p: usize, r: &Response, terms: &[String]) -> Option<Separation> {
     let scale: Vec<f64> = (0..p)
         .map(|j| {
             x.chunks_exact(p)
@@ -176,10 +193,7 @@ mod tests {
 
     fn binary(x: &[f64], y: &[f64]) -> (Vec<f64>, Response) {
         let design: Vec<f64> = x.iter().flat_map(|&v| [1.0, v]).collect();
-        let r = Response {
-            y: y.to_vec(),
-            wt: vec![1.0; y.len()],
-        };
+        let r = Response::new(y.to_vec(), vec![1.0; y.len()]);
         (design, r)
     }
 
