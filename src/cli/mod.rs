@@ -1,6 +1,7 @@
 //! Command-line interface: argument structs (clap derive) and the glue that turns them into
 //! library calls. Only this layer and `main` print.
 
+mod demo;
 mod fit;
 
 use clap::{Parser, Subcommand};
@@ -17,14 +18,17 @@ pub struct Cli {
 
 #[derive(Debug, Subcommand)]
 enum Command {
+    /// Run the whole chain on the bundled, invented planting trial.
+    Demo(demo::DemoArgs),
     /// Fit a survival or growth model from a remeasurement CSV.
     #[command(subcommand)]
-    Fit(fit::FitCommand),
+    Fit(Box<fit::FitCommand>),
 }
 
 /// Run the parsed command.
 pub fn run(cli: Cli) -> Result<(), Error> {
     match cli.command {
-        Command::Fit(c) => fit::run(c),
+        Command::Demo(a) => demo::run(&a),
+        Command::Fit(c) => fit::run(*c),
     }
 }

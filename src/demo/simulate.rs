@@ -1,7 +1,7 @@
 //! The invented remeasurement data of the demo: a documented, seeded simulation of a fictional
 //! planting trial with stated true coefficients (also written out in scenarios/README.md).
 //!
-//! The trial: 12 plots of 0.04 ha (each tree stands for 25 stems/ha), planted at six densities,
+//! The trial: 12 plots of 0.1 ha (each tree stands for 10 stems/ha), planted at six densities,
 //! half of the plots kept free of competing vegetation (`released`), half not (`unreleased`).
 //! Trees were measured at stand age 12 and again 5 years later. Between the measurements some
 //! trees died, a few were cut for an access line (status `cut`), and a few trees reached
@@ -15,9 +15,9 @@ use rand_distr::{Distribution, Normal};
 pub const TRIAL_SEED: u64 = 20_261_202;
 
 /// True 5-year survival model: logit P(alive) = η with
-/// η = 1.1 + 0.22·dbh − 0.08·bal + 0.5·[treatment = released].
+/// η = 0.6 + 0.22·dbh − 0.08·bal + 0.5·[treatment = released].
 pub const TRUE_SURVIVAL: [(&str, f64); 4] = [
-    ("(intercept)", 1.1),
+    ("(intercept)", 0.6),
     ("dbh", 0.22),
     ("bal", -0.08),
     ("treatment=released", 0.5),
@@ -35,8 +35,8 @@ pub const TRUE_GROWTH: [(&str, f64); 4] = [
 /// Residual SD of the true growth model (log scale).
 pub const TRUE_GROWTH_SD: f64 = 0.4;
 
-/// Stems per hectare one tree of a 0.04 ha plot stands for.
-pub const EXPANSION: f64 = 25.0;
+/// Stems per hectare one tree of a 0.1 ha plot stands for.
+pub const EXPANSION: f64 = 10.0;
 
 /// Planting densities (stems/ha) of plot pairs 1–2, 3–4, … 11–12.
 const DENSITIES: [f64; 6] = [1000.0, 1400.0, 1800.0, 2200.0, 2600.0, 3000.0];
@@ -73,7 +73,7 @@ pub fn simulate_trial(seed: u64) -> String {
         let treatment = if released { "released" } else { "unreleased" };
         let density = DENSITIES[((plot - 1) / 2) as usize];
         // About 8 % of planted trees died before the first measurement.
-        let n = ((density * 0.04) * (0.88 + 0.08 * rng.random::<f64>())).round() as usize;
+        let n = ((density * 0.1) * (0.88 + 0.08 * rng.random::<f64>())).round() as usize;
         let median = if released { 10.0 } else { 8.0 } * (1600.0 / density).powf(0.15);
         let dbh: Vec<f64> = (0..n)
             .map(|_| round1((median * (0.35 * z.sample(&mut rng)).exp()).max(0.5)))
@@ -83,7 +83,7 @@ pub fn simulate_trial(seed: u64) -> String {
         for (i, (&d, &b)) in dbh.iter().zip(&bal).enumerate() {
             let tree = i + 1;
             if rng.random::<f64>() < CUT_PROBABILITY {
-                out.push_str(&format!("{plot},{tree},{treatment},{d},,cut,5,25\n"));
+                out.push_str(&format!("{plot},{tree},{treatment},{d},,cut,5,10\n"));
                 // Keep the random stream aligned whether or not a tree is cut.
                 let _ = (rng.random::<f64>(), noise.sample(&mut rng));
                 continue;
@@ -100,15 +100,15 @@ pub fn simulate_trial(seed: u64) -> String {
                 + noise.sample(&mut rng);
             if alive {
                 let d2 = round1((d * d + 4.0 * ln_bai.exp() / std::f64::consts::PI).sqrt());
-                out.push_str(&format!("{plot},{tree},{treatment},{d},{d2},alive,5,25\n"));
+                out.push_str(&format!("{plot},{tree},{treatment},{d},{d2},alive,5,10\n"));
             } else {
-                out.push_str(&format!("{plot},{tree},{treatment},{d},,dead,5,25\n"));
+                out.push_str(&format!("{plot},{tree},{treatment},{d},,dead,5,10\n"));
             }
         }
         // Ingrowth: a tree or two that reached measurable size since the first measurement.
         if plot % 4 == 0 {
             let d2 = round1(1.0 + rng.random::<f64>());
-            out.push_str(&format!("{plot},{},{treatment},,{d2},alive,5,25\n", n + 1));
+            out.push_str(&format!("{plot},{},{treatment},,{d2},alive,5,10\n", n + 1));
         }
     }
     out
@@ -127,10 +127,10 @@ mod tests {
     #[test]
     fn brute_force_bal_matches_the_handbook_example() {
         // handbook-checks.md: d = 10, 20, 30 cm at 100 trees/ha → BAL 10.21018, 7.06858, 0;
-        // here each tree stands for 25/ha, so the values are a quarter of those.
+        // here each tree stands for 10/ha, so the values are a tenth of those.
         let b = bal_brute_force(&[10.0, 20.0, 30.0]);
-        assert!((b[0] - 10.21018 / 4.0).abs() < 1e-5);
-        assert!((b[1] - 7.06858 / 4.0).abs() < 1e-5);
+        assert!((b[0] - 10.21018 / 10.0).abs() < 1e-6);
+        assert!((b[1] - 7.06858 / 10.0).abs() < 1e-6);
         assert_eq!(b[2], 0.0);
     }
 }

@@ -141,10 +141,14 @@ pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
     ));
     if let Some(lr) = lr_test_vs_null(fit) {
         out.push_str(&format!(
-            "  likelihood ratio vs intercept-only: {:.4} on {} df, p = {}\n",
+            "  likelihood ratio vs intercept-only: {:.4} on {} df, p {}\n",
             lr.statistic,
             lr.df,
-            fmt_p(lr.p_value)
+            if lr.p_value < 1e-16 {
+                "< 1e-16".to_string()
+            } else {
+                format!("= {}", fmt_p(lr.p_value))
+            }
         ));
     }
     out.push_str(&format!(
