@@ -3,6 +3,7 @@
 
 mod demo;
 mod fit;
+mod rank;
 
 use clap::{Parser, Subcommand};
 use stemcast::Error;
@@ -23,6 +24,8 @@ enum Command {
     /// Fit a survival or growth model from a remeasurement CSV.
     #[command(subcommand)]
     Fit(Box<fit::FitCommand>),
+    /// Compare candidate predictor sets of a survival model: AIC, weights, BIC, AUC, CV log-loss.
+    Rank(Box<rank::RankArgs>),
 }
 
 /// Run the parsed command.
@@ -30,5 +33,6 @@ pub fn run(cli: Cli) -> Result<(), Error> {
     match cli.command {
         Command::Demo(a) => demo::run(&a),
         Command::Fit(c) => fit::run(*c),
+        Command::Rank(a) => rank::run(*a),
     }
 }

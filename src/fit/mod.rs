@@ -5,9 +5,12 @@
 pub mod chart;
 pub mod curves;
 pub mod estimate;
+pub mod folds;
 pub mod growth;
 pub mod judge;
 pub mod load;
+pub mod rank;
+pub mod rank_render;
 pub mod summary;
 pub mod survival;
 pub mod survival_summary;
