@@ -9,6 +9,7 @@ use ndarray::{Array1, ArrayView1};
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
+use rayon::prelude::*;
 
 use super::estimate::{glm_data, Estimate};
 use super::load::SurvivalData;
@@ -87,45 +88,64 @@ pub fn cv_log_loss(
     folds: &[u32],
     k: usize,
 ) -> Result<f64, Error> {
+    let per_fold: Vec<(f64, f64)> = (0..k as u32)
+        .into_par_iter()
+        .map(|fold| held_out_loss(data, est, interval, response, folds, fold, k))
+        .collect::<Result<_, _>>()?;
+    // Summed in fold order, so the result does not depend on the thread count.
+    let (loss, weight) = per_fold
+        .iter()
+        .fold((0.0, 0.0), |(l, w), (fl, fw)| (l + fl, w + fw));
+    Ok(loss / weight)
+}
+
+/// Held-out log-loss sum and weight of one fold.
+fn held_out_loss(
+    data: &SurvivalData,
+    est: &Estimate,
+    interval: IntervalKind,
+    response: &Response,
+    folds: &[u32],
+    fold: u32,
+    k: usize,
+) -> Result<(f64, f64), Error> {
     let mut loss = 0.0;
     let mut weight = 0.0;
-    for fold in 0..k as u32 {
-        let context = format!(
-            "cross-validation fold {} of {k}, terms {}",
-            fold + 1,
-            est.glm.terms.join(", ")
-        );
-        let beta = fold_fit(data, est, interval, response, folds, fold).map_err(|e| match e {
-            Error::Model(ModelError::NotConverged {
-                iterations,
-                deviance,
-                hint,
-            }) => Error::Model(ModelError::NotConverged {
-                iterations,
-                deviance,
-                hint: format!("{hint} ({context})"),
-            }),
-            other => Error::Usage(format!("{context}: {other}")),
-        })?;
-        let x = est.design.x.view();
-        for (i, row) in x.rows().into_iter().enumerate() {
-            let wt = response.wt[i];
-            if folds[i] != fold || wt == 0.0 {
-                continue;
-            }
-            let eta =
-                row.dot(&ArrayView1::from(&beta[..])) + data.offset.as_ref().map_or(0.0, |o| o[i]);
-            let mu = match interval {
-                IntervalKind::Annualized => Link::Logit.inverse(eta).powf(data.years[i]),
-                _ => est.glm.link.inverse(eta),
-            }
-            .clamp(LOSS_EPS, 1.0 - LOSS_EPS);
-            let y = response.y[i];
-            loss -= wt * (y * mu.ln() + (1.0 - y) * (-mu).ln_1p());
-            weight += wt;
+    let context = format!(
+        "cross-validation fold {} of {k}, terms {}",
+        fold + 1,
+        est.glm.terms.join(", ")
+    );
+    let beta = fold_fit(data, est, interval, response, folds, fold).map_err(|e| match e {
+        Error::Model(ModelError::NotConverged {
+            iterations,
+            deviance,
+            hint,
+        }) => Error::Model(ModelError::NotConverged {
+            iterations,
+            deviance,
+            hint: format!("{hint} ({context})"),
+        }),
+        other => Error::Usage(format!("{context}: {other}")),
+    })?;
+    let x = est.design.x.view();
+    for (i, row) in x.rows().into_iter().enumerate() {
+        let wt = response.wt[i];
+        if folds[i] != fold || wt == 0.0 {
+            continue;
         }
+        let eta =
+            row.dot(&ArrayView1::from(&beta[..])) + data.offset.as_ref().map_or(0.0, |o| o[i]);
+        let mu = match interval {
+            IntervalKind::Annualized => Link::Logit.inverse(eta).powf(data.years[i]),
+            _ => est.glm.link.inverse(eta),
+        }
+        .clamp(LOSS_EPS, 1.0 - LOSS_EPS);
+        let y = response.y[i];
+        loss -= wt * (y * mu.ln() + (1.0 - y) * (-mu).ln_1p());
+        weight += wt;
     }
-    Ok(loss / weight)
+    Ok((loss, weight))
 }
 
 /// Coefficients fitted without fold `fold`.
@@ -186,4 +206,42 @@ fn masked_prior(data: &SurvivalData, folds: &[u32], fold: u32) -> Array1<f64> {
             }
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn every_tree_of_a_stand_shares_a_fold_and_every_fold_has_a_stand() {
+        let stands: Vec<u32> = (0..300).map(|i| (i * 7 % 23) as u32).collect();
+        let (folds, n) = stand_folds(&stands, 5, 42, "t.csv").unwrap();
+        assert_eq!(n, 23);
+        for s in 0..23u32 {
+            let of: Vec<u32> = (0..300)
+                .filter(|&i| stands[i] == s)
+                .map(|i| folds[i])
+                .collect();
+            assert!(of.windows(2).all(|w| w[0] == w[1]), "stand {s} split");
+        }
+        for f in 0..5u32 {
+            assert!(folds.contains(&f), "fold {f} empty");
+        }
+        // The same seed deals the same folds; the assignment depends only on the seed.
+        assert_eq!(stand_folds(&stands, 5, 42, "t.csv").unwrap().0, folds);
+    }
+
+    #[test]
+    fn fold_counts_outside_two_to_the_number_of_stands_are_refused() {
+        let stands = [0u32, 0, 1, 2];
+        assert!(matches!(
+            stand_folds(&stands, 1, 1, "t.csv"),
+            Err(Error::Usage(_))
+        ));
+        assert!(matches!(
+            stand_folds(&stands, 4, 1, "t.csv"),
+            Err(Error::Usage(_))
+        ));
+        assert!(stand_folds(&stands, 3, 1, "t.csv").is_ok());
+    }
 }

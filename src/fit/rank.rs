@@ -167,23 +167,34 @@ fn rank_loaded(
         &first.design.names,
         None,
     ))?;
-    let losses: Vec<f64> = fits
-        .par_iter()
-        .map(|f| cv_log_loss(data, f, s.interval, &response, folds, spec.folds))
-        .collect::<Result<_, _>>()?;
     let unit = require_unit_binary(
         data.trials.is_some(),
         data.weights.as_ref().and_then(|w| w.as_slice()),
     );
     let y = data.y.as_slice().unwrap_or(&[]);
+    let judged: Vec<(Option<f64>, f64)> = fits
+        .par_iter()
+        .map(|f| {
+            let (auc, loss) = rayon::join(
+                || {
+                    unit.clone()
+                        .and_then(|_| roc_auc(y, &f.fitted))
+                        .ok()
+                        .map(|a| a.auc)
+                },
+                || cv_log_loss(data, f, s.interval, &response, folds, spec.folds),
+            );
+            Ok::<_, Error>((auc, loss?))
+        })
+        .collect::<Result<_, _>>()?;
     let aic: Vec<f64> = fits.iter().map(|f| f.glm.aic).collect();
     let weights = akaike_weights(&aic);
     let min = aic.iter().copied().fold(f64::INFINITY, f64::min);
     let mut rows: Vec<CandidateRow> = fits
         .iter()
         .zip(&spec.candidates)
-        .zip(losses.iter().zip(&weights))
-        .map(|((f, c), (&loss, &w))| CandidateRow {
+        .zip(judged.iter().zip(&weights))
+        .map(|((f, c), (&(auc, loss), &w))| CandidateRow {
             predictors: c.clone(),
             terms: f.glm.terms.clone(),
             k: f.glm.coefficients.len(),
@@ -192,11 +203,7 @@ fn rank_loaded(
             delta_aic: f.glm.aic - min,
             akaike_weight: w,
             bic: f.glm.bic,
-            auc: unit
-                .clone()
-                .and_then(|_| roc_auc(y, &f.fitted))
-                .ok()
-                .map(|a| a.auc),
+            auc,
             cv_log_loss: loss,
         })
         .collect();
@@ -226,4 +233,23 @@ fn rank_loaded(
         nested,
         warnings: data.warnings.clone(),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn akaike_weights_follow_exp_minus_half_delta() {
+        // Derived analytically: Δ = (0, 2, 4) gives weights ∝ (1, e⁻¹, e⁻²).
+        let w = akaike_weights(&[100.0, 102.0, 104.0]);
+        let total = 1.0 + (-1f64).exp() + (-2f64).exp();
+        for (got, want) in w.iter().zip([1.0, (-1f64).exp(), (-2f64).exp()]) {
+            assert!((got - want / total).abs() < 1e-15);
+        }
+        assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-15);
+        // Large AIC values do not underflow: only differences matter.
+        let big = akaike_weights(&[1e9, 1e9 + 2.0]);
+        assert!((big[0] - 1.0 / (1.0 + (-1f64).exp())).abs() < 1e-12);
+    }
 }
