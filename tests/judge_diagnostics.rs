@@ -66,7 +66,19 @@ fn birthwt_auc_hosmer_lemeshow_and_lr_test_match_the_fixture() {
     assert!(close(f(&hl["p_value"]), f(&ehl["p_value"]), 1e-4, 1e-12));
     assert_eq!(hl["df"], ehl["df"]);
     assert_eq!(hl["n_groups"], ehl["n_groups"]);
-    assert_eq!(hl["group_sizes"], ehl["group_sizes"]);
+    assert_eq!(
+        hl.as_object().unwrap().keys().collect::<Vec<_>>(),
+        ["df", "n_groups", "p_value", "statistic"],
+        "design §2 keys"
+    );
+    assert_eq!(
+        j["hosmer_lemeshow_groups"]["group_sizes"],
+        ehl["group_sizes"]
+    );
+    assert_eq!(
+        j["hosmer_lemeshow_groups"]["observed_events"],
+        ehl["observed_events"]
+    );
     // birthwt_logit.json expected.lr_test_vs_null (statsmodels; R glm): rtol 1e-8.
     let (lr, elr) = (&j["lr_test_vs_null"], &e["lr_test_vs_null"]);
     assert!(close(f(&lr["statistic"]), f(&elr["statistic"]), 1e-8, 1e-8));

@@ -37,6 +37,14 @@ pub fn calibration_svg(fit: &SurvivalFit) -> Result<String, Error> {
     let curves = fit.curves.as_ref().ok_or_else(|| {
         Error::Usage("--calibration-svg: the fitted curves were not computed".into())
     })?;
+    let lowest = cal
+        .classes
+        .iter()
+        .filter(|r| r.records > 0)
+        .flat_map(|r| [r.observed, r.mean_predicted])
+        .fold(1.0f64, f64::min);
+    // Zoom to the probabilities that occur, in steps of 0.1.
+    let axis_lo = ((lowest * 10.0).floor() / 10.0).clamp(0.0, 0.9);
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (1000, 460)).into_drawing_area();
@@ -50,7 +58,7 @@ pub fn calibration_svg(fit: &SurvivalFit) -> Result<String, Error> {
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(50)
-            .build_cartesian_2d(0f64..1f64, 0f64..1f64)
+            .build_cartesian_2d(axis_lo..1f64, axis_lo..1f64)
             .map_err(chart_error)?;
         c.configure_mesh()
             .x_desc("mean predicted survival")
@@ -58,7 +66,7 @@ pub fn calibration_svg(fit: &SurvivalFit) -> Result<String, Error> {
             .draw()
             .map_err(chart_error)?;
         c.draw_series(LineSeries::new(
-            [(0.0, 0.0), (1.0, 1.0)],
+            [(axis_lo, axis_lo), (1.0, 1.0)],
             RGBColor(0xb0, 0xb0, 0xb0).stroke_width(1),
         ))
         .map_err(chart_error)?

@@ -208,10 +208,13 @@ pub fn survival_json(fit: &SurvivalFit) -> Value {
         })
         .collect();
     let (auc, auc_why) = or_reason(&d.auc, |a| json!(a.auc));
-    let (hl, hl_why) = or_reason(&d.hosmer_lemeshow, |h| {
-        json!({"statistic": h.statistic, "df": h.df, "p_value": h.p_value, "n_groups": h.n_groups,
-               "group_sizes": h.group_sizes, "observed_events": h.observed_events,
-               "expected_events": h.expected_events})
+    let (hl, hl_why) = or_reason(
+        &d.hosmer_lemeshow,
+        |h| json!({"statistic": h.statistic, "df": h.df, "p_value": h.p_value, "n_groups": h.n_groups}),
+    );
+    let (hl_groups, _) = or_reason(&d.hosmer_lemeshow, |h| {
+        json!({"group_sizes": h.group_sizes, "observed_events": h.observed_events,
+               "expected_events": h.expected_events, "breaks": h.breaks})
     });
     let (lr, lr_why) = or_reason(
         &d.lr_test_vs_null,
@@ -250,7 +253,8 @@ pub fn survival_json(fit: &SurvivalFit) -> Value {
         "log_likelihood": g.log_likelihood, "aic": g.aic, "bic": g.bic,
         "penalized_log_likelihood": fit.penalized_log_likelihood,
         "iterations": g.iterations, "converged": g.converged,
-        "auc": auc, "hosmer_lemeshow": hl, "lr_test_vs_null": lr, "calibration": cal,
+        "auc": auc, "hosmer_lemeshow": hl, "hosmer_lemeshow_groups": hl_groups,
+        "lr_test_vs_null": lr, "calibration": cal,
         "unavailable": {"auc": auc_why, "hosmer_lemeshow": hl_why, "lr_test_vs_null": lr_why,
                         "calibration": cal_why},
         "warnings": fit.warnings,
