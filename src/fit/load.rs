@@ -193,10 +193,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
     } else {
         None
     };
-    let mut warnings = records.warnings.clone();
-    if period_years.is_none() {
-        warnings.push("no remeasurement interval was given (--years N or a `years` column), so the model file has no period_years and cannot drive a projection".into());
-    }
+    let warnings = records.warnings.clone();
     Ok(SurvivalData {
         records,
         y,

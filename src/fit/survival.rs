@@ -185,6 +185,9 @@ pub fn fit_loaded(
         None
     };
     let mut warnings = data.warnings.clone();
+    if data.period_years.is_none() {
+        warnings.push("no remeasurement interval was given (--years N or a `years` column), so the model file has no period_years and cannot drive a projection".into());
+    }
     warnings.extend(est.glm.warnings.iter().cloned());
     let model = model_file(spec, &est, &inference, data, predictors);
     Ok(SurvivalFit {
