@@ -47,10 +47,22 @@ fn constant_term_is_named() {
     match fit_glm(&data(&x, &terms, &y), &GlmOptions::default()) {
         Err(ModelError::RankDeficient { term, message }) => {
             assert_eq!(term, "plot_area");
-            assert!(message.contains("`plot_area` is constant"), "{message}");
+            assert!(message.contains("`plot_area` is constant (3)"), "{message}");
         }
         other => panic!("expected rank deficiency, got {other:?}"),
     }
+}
+
+#[test]
+fn zero_term_is_named() {
+    let (x, y) = base(|_, _| 0.0);
+    let terms = names(&["(intercept)", "x", "removed_stems"]);
+    let err = fit_glm(&data(&x, &terms, &y), &GlmOptions::default()).unwrap_err();
+    assert!(
+        err.to_string()
+            .contains("`removed_stems` is zero for every record"),
+        "{err}"
+    );
 }
 
 #[test]

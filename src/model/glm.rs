@@ -88,7 +88,7 @@ impl GlmFit {
     ) -> Result<Array1<f64>, ModelError> {
         if x.ncols() != self.coefficients.len() {
             return Err(ModelError::Invalid(format!(
-                "expected {} columns, got {}",
+                "the model has {} coefficients but the design has {} columns",
                 self.coefficients.len(),
                 x.ncols()
             )));
@@ -144,13 +144,32 @@ pub(crate) fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
             return Err(invalid(format!("{name} has {len} values for {n} rows")));
         }
     }
-    if let Some(i) = data.x.iter().position(|v| !v.is_finite()) {
+    // A branch-free scan first (vectorised on contiguous data); the position only on failure.
+    let all_finite = match data.x.as_slice() {
+        Some(xs) => xs.iter().fold(true, |ok, v| ok & v.is_finite()),
+        None => data.x.iter().all(|v| v.is_finite()),
+    };
+    if let Some(i) = (!all_finite)
+        .then(|| data.x.iter().position(|v| !v.is_finite()))
+        .flatten()
+    {
         let (r, c) = (i / data.x.ncols().max(1), i % data.x.ncols().max(1));
         return Err(invalid(format!(
             "row {}: term `{}` is not a finite number",
             r + 1,
             data.terms[c]
         )));
+    }
+    if data.trials.is_none() && data.weights.is_none() && data.offset.is_none() {
+        // The common unweighted 0/1 case, checked without branches; errors fall through to
+        // the row-by-row loop, which names the row.
+        let binary = data
+            .y
+            .iter()
+            .fold(true, |ok, &v| ok & (v == 0.0 || v == 1.0));
+        if binary {
+            return Ok(Response::new(data.y.to_vec(), vec![1.0; n]));
+        }
     }
     let mut y = Vec::with_capacity(n);
     let mut wt = Vec::with_capacity(n);
@@ -233,10 +252,15 @@ pub(crate) fn rank_deficient(
     let first = values.next().map(|(row, _)| row[j]);
     let constant = values.all(|(row, _)| Some(row[j]) == first);
     let term = terms[j].clone();
-    let message = if constant {
-        format!("term `{term}` is constant over the records used (the intercept already covers it); drop it")
-    } else {
-        format!("term `{term}` is a linear combination of the other terms (collinear); drop it")
+    let message = match first {
+        Some(v) if constant && v == 0.0 => {
+            format!("term `{term}` is zero for every record used; drop it")
+        }
+        Some(v) if constant && intercept_column(x, p, r).is_some_and(|i| i != j) => format!(
+            "term `{term}` is constant ({v}) over the records used, which the intercept already covers; drop it"
+        ),
+        _ if constant => format!("term `{term}` is constant over the records used and aliases another term; drop one of them"),
+        _ => format!("term `{term}` is a linear combination of the other terms (collinear); drop it"),
     };
     ModelError::RankDeficient { term, message }
 }
@@ -289,7 +313,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
     }
     let fit = problem.run(start);
     let suspicious = match &fit {
-        Ok(f) => !f.converged || separation::extreme(f.last.min_tail),
+        Ok(f) => !f.converged || f.last.extreme,
         Err(_) => true,
     };
     if suspicious && n_obs > separation::ALWAYS_CHECK_MAX_ROWS {
@@ -324,7 +348,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
             fit.halved_iterations
         ));
     }
-    if separation::extreme(fit.last.min_tail) {
+    if fit.last.extreme {
         warnings.push(
             "fitted probabilities numerically 0 or 1 occurred (no separation was found)".into(),
         );

@@ -10,7 +10,7 @@ use super::linalg::SpdFactor;
 use super::link::Link;
 use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
 
-/// Step-halving gives up after this many halvings and takes the step as it is.
+/// Step-halving gives up after this many halvings; the fit then stops unconverged.
 const MAX_HALVINGS: usize = 30;
 
 /// The response in proportion form: `y` = successes / trials and `wt` = prior weight × trials.
@@ -22,13 +22,21 @@ pub struct Response {
     pub wt: Vec<f64>,
     /// True when every proportion is 0 or 1 (enables the logit fast path).
     pub binary: bool,
+    /// True when every weight is 1 (the passes then read no weights).
+    pub unit_weights: bool,
 }
 
 impl Response {
-    /// Builds the response, noting whether every proportion is 0 or 1.
+    /// Builds the response, noting whether every proportion is 0 or 1 and every weight 1.
     pub fn new(y: Vec<f64>, wt: Vec<f64>) -> Self {
-        let binary = y.iter().all(|&v| v == 0.0 || v == 1.0);
-        Response { y, wt, binary }
+        let binary = y.iter().fold(true, |ok, &v| ok & (v == 0.0 || v == 1.0));
+        let unit_weights = wt.iter().fold(true, |ok, &w| ok & (w == 1.0));
+        Response {
+            y,
+            wt,
+            binary,
+            unit_weights,
+        }
     }
 }
 
@@ -41,9 +49,9 @@ pub struct Pass {
     pub xtwx: Vec<f64>,
     /// XᵀWz with the working response of the pass (offset removed).
     pub xtwz: Vec<f64>,
-    /// The smallest min(μ, 1 − μ) among rows with non-zero weight (0.5 in the start pass,
-    /// which does not look at it).
-    pub min_tail: f64,
+    /// Whether some row with non-zero weight has a fitted probability within
+    /// [`EXTREME_MU`](crate::model::separation::EXTREME_MU) of 0 or 1 (false in the start pass).
+    pub extreme: bool,
 }
 
 /// The outcome of the IRLS loop.
@@ -127,6 +135,11 @@ impl Problem<'_> {
                     halvings += 1;
                 }
                 halved_iterations += usize::from(halvings > 0);
+                if !(next.deviance.is_finite() && next.deviance <= limit) {
+                    // No step along this direction lowers the deviance: stop, not converged
+                    // (a tiny halved step must not pass for convergence).
+                    break;
+                }
             }
             converged = beta_old.as_ref().is_some_and(|old| {
                 let dev_change =

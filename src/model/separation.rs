@@ -5,7 +5,7 @@
 //! The linear program costs far more than IRLS on large data, so [`crate::model::glm::fit_glm`]
 //! runs it before iterating whenever the data has at most [`ALWAYS_CHECK_MAX_ROWS`] records
 //! with non-zero weight, and on larger data only when IRLS fails to converge or ends with a
-//! fitted probability within [`EXTREME_MU`] of 0 or 1 (see [`extreme`]): separation drives
+//! fitted probability within [`EXTREME_MU`] of 0 or 1 : separation drives
 //! some fitted probabilities to 0 or 1, so a converged fit with every μ inside
 //! (1e-8, 1 − 1e-8) has a maximum-likelihood estimate.
 
@@ -67,12 +67,6 @@ pub fn find_separation(data: &GlmData) -> Result<Option<Separation>, ModelError>
         .as_slice()
         .ok_or_else(|| ModelError::Invalid("design matrix layout".into()))?;
     Ok(detect(xs, data.x.ncols(), &r, data.terms))
-}
-
-/// True when some fitted probability is within [`EXTREME_MU`] of 0 or 1, given the smallest
-/// min(μ, 1 − μ) over the records.
-pub fn extreme(min_tail: f64) -> bool {
-    min_tail < EXTREME_MU
 }
 
 /// One distinct constraint row: signed, scaled covariates and whether it must hold with

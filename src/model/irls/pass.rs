@@ -4,14 +4,16 @@
 
 use super::{unit_deviance, Pass, Problem};
 use crate::model::link::{variance, Link, MU_EPS};
+use crate::model::separation::EXTREME_MU;
 
 /// Sums deviance contributions. Unit-weight 0/1 rows contribute −2 ln q, q the fitted
-/// probability of the observed outcome; those q are multiplied 16 at a time (each is at least
-/// `MU_EPS`, so 16 of them cannot underflow) and one logarithm is taken per block.
+/// probability of the observed outcome; those q are multiplied into four independent lanes,
+/// 16 factors per lane (each is at least `MU_EPS`, so 16 of them cannot underflow), and one
+/// logarithm is taken per lane and block.
 #[derive(Debug, Clone, Copy)]
 struct DevianceSum {
     sum: f64,
-    prod: f64,
+    lanes: [f64; 4],
     count: u32,
 }
 
@@ -19,24 +21,31 @@ impl DevianceSum {
     fn new() -> Self {
         DevianceSum {
             sum: 0.0,
-            prod: 1.0,
+            lanes: [1.0; 4],
             count: 0,
         }
     }
 
     #[inline(always)]
-    fn add_prob(&mut self, q: f64) {
-        self.prod *= q;
+    fn add_probs(&mut self, q: &[f64]) {
+        for (lane, &q) in self.lanes.iter_mut().zip(q) {
+            *lane *= q.max(MU_EPS);
+        }
         self.count += 1;
         if self.count == 16 {
-            self.sum -= 2.0 * self.prod.ln();
-            self.prod = 1.0;
-            self.count = 0;
+            self.flush();
         }
     }
 
-    fn total(self) -> f64 {
-        self.sum - 2.0 * self.prod.ln()
+    fn flush(&mut self) {
+        self.sum -= 2.0 * self.lanes.iter().map(|l| l.ln()).sum::<f64>();
+        self.lanes = [1.0; 4];
+        self.count = 0;
+    }
+
+    fn total(mut self) -> f64 {
+        self.flush();
+        self.sum
     }
 }
 
@@ -46,6 +55,9 @@ const BLOCK: usize = 128;
 /// The offset of rows without one.
 const ZEROS: [f64; BLOCK] = [0.0; BLOCK];
 
+/// The weights of unweighted rows (read from cache instead of memory).
+const ONES: [f64; BLOCK] = [1.0; BLOCK];
+
 /// Per-block buffers and running totals of a pass.
 struct BlockAcc {
     eta: [f64; BLOCK],
@@ -53,7 +65,7 @@ struct BlockAcc {
     wz: [f64; BLOCK],
     q: [f64; BLOCK],
     dev: DevianceSum,
-    min_tail: f64,
+    extreme: bool,
 }
 
 impl BlockAcc {
@@ -64,7 +76,7 @@ impl BlockAcc {
             wz: [0.0; BLOCK],
             q: [0.0; BLOCK],
             dev: DevianceSum::new(),
-            min_tail: 0.5,
+            extreme: false,
         }
     }
 
@@ -77,7 +89,7 @@ impl BlockAcc {
             },
             xtwx,
             xtwz,
-            min_tail: self.min_tail,
+            extreme: self.extreme,
         }
     }
 }
@@ -105,16 +117,26 @@ impl Problem<'_> {
         let mut a = [[0.0; P]; P];
         let mut b = [0.0; P];
         let mut acc = BlockAcc::new();
-        let coef: [f64; P] = std::array::from_fn(|j| beta.map_or(0.0, |c| c[j]));
+        // The block transposed to columns: the linear predictor and the cross products then
+        // run over contiguous columns, which the compiler vectorises.
+        let mut cols = [[0.0; BLOCK]; P];
         for (k, block) in self.x.chunks(P * BLOCK).enumerate() {
-            if beta.is_some() {
-                for (e, xi) in acc.eta.iter_mut().zip(block.chunks_exact(P)) {
-                    let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
-                    *e = (0..P).map(|j| xi[j] * coef[j]).sum();
+            let rows = block.len() / P;
+            for (r, xi) in block.chunks_exact(P).enumerate() {
+                for (col, &v) in cols.iter_mut().zip(xi) {
+                    col[r] = v;
                 }
             }
-            self.row_block(k * BLOCK, block.len() / P, beta.is_some(), &mut acc);
-            (a, b) = accumulate_fixed(block, &acc.w, &acc.wz, a, b);
+            if let Some(c) = beta {
+                acc.eta[..rows].fill(0.0);
+                for (col, &cj) in cols.iter().zip(c) {
+                    for (e, &v) in acc.eta[..rows].iter_mut().zip(&col[..rows]) {
+                        *e += cj * v;
+                    }
+                }
+            }
+            self.row_block(k * BLOCK, rows, beta.is_some(), &mut acc);
+            accumulate_columns(&cols, rows, &acc.w, &acc.wz, &mut a, &mut b);
         }
         let xtwx = (0..P * P).map(|m| a[(m / P).max(m % P)][(m / P).min(m % P)]);
         acc.finish(beta.is_some(), xtwx.collect(), b.to_vec())
@@ -146,17 +168,21 @@ impl Problem<'_> {
 
     /// Phase one of a pass over a block of rows: working weight w and w × working response
     /// (offset removed) per row into the block buffers (zero for rows left out), plus the
-    /// deviance and the smallest min(μ, 1 − μ). Kept apart from the accumulation so that the
+    /// deviance and the extreme-probability flag. Kept apart from the accumulation so that the
     /// accumulators stay in registers there (a call to `exp` clobbers every register).
     fn row_block(&self, first: usize, rows: usize, at_beta: bool, acc: &mut BlockAcc) {
-        let wts = &self.response.wt[first..first + rows];
+        let wts = if self.response.unit_weights {
+            &ONES[..rows]
+        } else {
+            &self.response.wt[first..first + rows]
+        };
         let ys = &self.response.y[first..first + rows];
         let offs = self
             .offset
             .map_or(&ZEROS[..rows], |o| &o[first..first + rows]);
         // Running totals live in locals, not behind `acc`, so they stay in registers.
         let mut dev = acc.dev;
-        let mut tail = acc.min_tail;
+        let mut extreme = acc.extreme;
         let BlockAcc {
             eta,
             w: w_buf,
@@ -170,7 +196,7 @@ impl Problem<'_> {
                 // With s = 2y − 1 the probability of the observed outcome is q = 1/(1 + e),
                 // e = exp(−s·η), and 1 − q = e·q without cancellation; y − μ = s(1 − q) and
                 // μ(1 − μ) = q(1 − q). Three loops: the exponentials alone, then the
-                // arithmetic (vectorisable), then the deviance and tail (reductions).
+                // arithmetic (vectorisable), then the deviance and extreme flag (reductions).
                 for (q, (&eta_lin, ((_, &y), &off))) in q_buf.iter_mut().zip(data) {
                     *q = ((1.0 - 2.0 * y) * (eta_lin + off)).min(700.0).exp();
                 }
@@ -184,15 +210,25 @@ impl Problem<'_> {
                     wz_buf[r] = w * eta_lin + wt * (2.0 * y - 1.0) * one_minus_q;
                     q_buf[r] = q;
                 }
-                for (&q, &wt) in q_buf[..rows].iter().zip(wts) {
-                    if wt == 1.0 {
-                        dev.add_prob(q.max(MU_EPS));
-                    } else if wt > 0.0 {
-                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
-                    } else {
+                let is_extreme = |q: f64| !(EXTREME_MU..=1.0 - EXTREME_MU).contains(&q);
+                let mut quads = q_buf[..rows].chunks_exact(4).zip(wts.chunks_exact(4));
+                for (q4, w4) in quads.by_ref() {
+                    if w4 == [1.0; 4] {
+                        dev.add_probs(q4);
+                        extreme |= q4.iter().fold(false, |e, &q| e | is_extreme(q));
                         continue;
                     }
-                    tail = tail.min(q.min(1.0 - q));
+                    for (&q, &wt) in q4.iter().zip(w4).filter(|(_, &wt)| wt > 0.0) {
+                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
+                        extreme |= is_extreme(q);
+                    }
+                }
+                let done = rows - rows % 4;
+                for (&q, &wt) in q_buf[done..rows].iter().zip(&wts[done..]) {
+                    if wt > 0.0 {
+                        dev.sum -= 2.0 * wt * q.max(MU_EPS).ln();
+                        extreme |= is_extreme(q);
+                    }
                 }
             }
             true => {
@@ -205,7 +241,7 @@ impl Problem<'_> {
                     let w = wt * d * d / variance(mu);
                     w_buf[r] = w;
                     wz_buf[r] = w * (eta_lin + (y - mu) / d);
-                    tail = tail.min(mu.min(1.0 - mu));
+                    extreme |= !(EXTREME_MU..=1.0 - EXTREME_MU).contains(&mu);
                     dev.sum += wt * unit_deviance(y, mu);
                 }
             }
@@ -227,7 +263,7 @@ impl Problem<'_> {
             }
         }
         acc.dev = dev;
-        acc.min_tail = tail;
+        acc.extreme = extreme;
     }
 
     /// The working weight and w × working response (without offset) at the start
@@ -241,55 +277,45 @@ impl Problem<'_> {
     }
 }
 
-/// Adds Σ w·xxᵀ (lower triangle) and Σ wz·x over a block of rows to `a` and `b`. A separate
-/// function taking and returning the accumulators by value, so that they live in registers
-/// (inlined into the pass loop, LLVM stores them back to memory on every row).
-#[inline(never)]
-fn accumulate_fixed<const P: usize>(
-    block: &[f64],
-    w: &[f64],
-    wz: &[f64],
-    mut a: [[f64; P]; P],
-    mut b: [f64; P],
-) -> ([[f64; P]; P], [f64; P]) {
-    let rows = || block.chunks_exact(P).zip(w.iter().zip(wz));
-    // XᵀWz and the first two rows of the triangle, then two triangle rows per sweep: few
-    // enough accumulators per sweep to stay in registers (the block is in L1).
-    for (xi, (&w, &wz)) in rows() {
-        for j in 0..P {
-            b[j] += wz * xi[j];
+/// Adds Σ w·xxᵀ (lower triangle) and Σ wz·x over the first `rows` rows of a block held as
+/// columns.
+fn accumulate_columns<const P: usize>(
+    cols: &[[f64; BLOCK]; P],
+    rows: usize,
+    w: &[f64; BLOCK],
+    wz: &[f64; BLOCK],
+    a: &mut [[f64; P]; P],
+    b: &mut [f64; P],
+) {
+    let mut wx = [0.0; BLOCK];
+    for j in 0..P {
+        for ((t, &wr), &v) in wx[..rows].iter_mut().zip(&w[..rows]).zip(&cols[j][..rows]) {
+            *t = wr * v;
         }
-        for j in 0..P.min(2) {
-            let wxj = w * xi[j];
-            for k in 0..=j {
-                a[j][k] += wxj * xi[k];
-            }
+        b[j] += dot(&wz[..rows], &cols[j][..rows]);
+        for k in 0..=j {
+            a[j][k] += dot(&wx[..rows], &cols[k][..rows]);
         }
     }
-    for j0 in (2..P).step_by(2) {
-        let mut lo = [0.0; P];
-        let mut hi = [0.0; P];
-        for (xi, &w) in block.chunks_exact(P).zip(w) {
-            let xi: [f64; P] = std::array::from_fn(|j| xi[j]);
-            let wx0 = w * xi[j0];
-            for k in 0..=j0 {
-                lo[k] += wx0 * xi[k];
-            }
-            if j0 + 1 < P {
-                let wx1 = w * xi[j0 + 1];
-                for k in 0..=j0 + 1 {
-                    hi[k] += wx1 * xi[k];
-                }
-            }
-        }
-        for k in 0..P {
-            a[j0][k] += lo[k];
-            if j0 + 1 < P {
-                a[j0 + 1][k] += hi[k];
-            }
+}
+
+/// Σ xᵢyᵢ in eight interleaved partial sums (vectorisable; a fixed summation order).
+#[inline(always)]
+fn dot(x: &[f64], y: &[f64]) -> f64 {
+    let mut lanes = [0.0; 8];
+    let (xs, ys) = (x.chunks_exact(8), y.chunks_exact(8));
+    let tail: f64 = xs
+        .remainder()
+        .iter()
+        .zip(ys.remainder())
+        .map(|(a, b)| a * b)
+        .sum();
+    for (a, b) in xs.zip(ys) {
+        for l in 0..8 {
+            lanes[l] += a[l] * b[l];
         }
     }
-    (a, b)
+    lanes.iter().sum::<f64>() + tail
 }
 
 /// Adds w·xxᵀ (lower triangle) and wz·x for one row.
