@@ -14,6 +14,7 @@ use stemcast::fit::rank::{rank, RankSpec};
 use stemcast::fit::survival::{SurvivalResponse, SurvivalSpec};
 use stemcast::fit::{DataOptions, Years};
 use stemcast::model::file::IntervalKind;
+use stemcast::model::glm::FitControl;
 use stemcast::model::link::Link;
 
 /// FIT-1M as CSV: stands of 200 trees, dbh lognormal (median 15 cm, geometric SD 1.8, redrawn
@@ -84,6 +85,7 @@ fn rank_fit_1m(c: &mut Criterion) {
         .collect(),
         folds: 10,
         seed: 1,
+        control: FitControl::default(),
     };
     let mut group = c.benchmark_group("rank");
     group

@@ -98,3 +98,45 @@ fn firth_needs_the_logit_link_and_cluster_needs_the_ordinary_glm() {
     refused(&sb, TREES, &["--firth", "--cluster", "plot"], "--cluster");
     refused(&sb, TREES, &["--cluster", "tree_plot"], "tree_plot");
 }
+
+#[test]
+fn a_fit_that_runs_out_of_iterations_exits_1_and_writes_nothing() {
+    // birthwt_logit.json reference (R glm) needs 4–5 IRLS iterations from the usual start;
+    // with --max-iterations 2 the fit cannot meet the design §4 stopping rules.
+    let sb = Sandbox::new();
+    let data =
+        std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/birthwt.csv");
+    let model = sb.path("m.toml");
+    let out = sb.run(&[
+        "fit",
+        "survival",
+        data.to_str().unwrap(),
+        "--status",
+        "low",
+        "-p",
+        "age, lwt, race_black, race_other, smoke, ptl, ht, ui",
+        "--max-iterations",
+        "2",
+        "--out",
+        model.to_str().unwrap(),
+    ]);
+    assert_eq!(out.status.code(), Some(1), "{}", stderr(&out));
+    assert!(
+        stderr(&out).contains("did not converge in 2 iterations"),
+        "{}",
+        stderr(&out)
+    );
+    assert!(!model.exists());
+    let out = sb.run(&[
+        "fit",
+        "survival",
+        data.to_str().unwrap(),
+        "--status",
+        "low",
+        "-p",
+        "age",
+        "--max-iterations",
+        "0",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+}

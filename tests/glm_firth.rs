@@ -63,6 +63,24 @@ fn check_firth_case(name: &str) {
         1e-8,
     );
     assert_eq!(fit.n_obs as u64, e["n_obs"].as_u64().unwrap());
+    // expected.plr_statistics / plr_p_values: the fixture's Python penalised-likelihood-ratio
+    // tests (logistf's default; penalty from the full design), cross-checked there with a
+    // second optimiser. README tolerances: LR statistic rtol 1e-8, atol 1e-8; p-values rtol
+    // 1e-4, atol 1e-12.
+    close_all(
+        "plr_statistics",
+        &fit.plr_statistics,
+        &vec_f(&e["plr_statistics"]),
+        1e-8,
+        1e-8,
+    );
+    close_all(
+        "plr_p_values",
+        &fit.plr_p_values,
+        &vec_f(&e["plr_p_values"]),
+        1e-4,
+        1e-12,
+    );
 }
 
 // separation_toy_firth.json: complete separation; Firth estimate exists (b0 = −5.5·b1 by symmetry).

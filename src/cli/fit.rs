@@ -10,6 +10,7 @@ use stemcast::fit::summary;
 use stemcast::fit::survival::{fit_survival_with, FitOptions, SurvivalResponse, SurvivalSpec};
 use stemcast::fit::{parse_references, DataOptions, Years};
 use stemcast::model::file::{GrowthResponse, IntervalKind, ModelFile};
+use stemcast::model::glm::FitControl;
 use stemcast::model::link::Link;
 use stemcast::Error;
 
@@ -150,6 +151,18 @@ pub struct SurvivalModelArgs {
     /// --years-col).
     #[arg(long, value_enum, default_value = "fixed")]
     interval: IntervalArg,
+    /// Give up (exit code 1) after this many iterations (IRLS solves or Newton steps), like R's
+    /// glm.control(maxit). Default 50.
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    max_iterations: Option<u32>,
+}
+
+/// The iteration limit of the model options.
+pub(crate) fn control(m: &SurvivalModelArgs) -> FitControl {
+    match m.max_iterations {
+        Some(n) => FitControl::default().max_iterations(n as usize),
+        None => FitControl::default(),
+    }
 }
 
 /// `fit survival` options.
@@ -314,6 +327,7 @@ fn survival(a: SurvivalArgs) -> Result<(), Error> {
         cluster: a.cluster.clone(),
         dbh_classes: a.dbh_classes.clone(),
         curves: a.calibration_svg.is_some(),
+        control: control(&a.model),
     };
     if a.calibration_svg.is_some() {
         check_svg_possible(&spec)?;

@@ -11,11 +11,11 @@ use ndarray::{Array2, ArrayView1};
 use super::load::SurvivalData;
 use super::survival::SurvivalSpec;
 use super::term_needs;
-use crate::model::annualized::{fit_annualized, AnnualizedFit};
+use crate::model::annualized::{fit_annualized_with, AnnualizedFit};
 use crate::model::design::{build_design, Design, DesignOptions};
 use crate::model::file::{CovarianceKind, IntervalKind};
-use crate::model::firth::{fit_firth, FirthFit};
-use crate::model::glm::{fit_glm, wald, GlmData, GlmFit, GlmOptions};
+use crate::model::firth::{fit_firth_with, FirthFit};
+use crate::model::glm::{fit_glm, fit_glm_with, wald, FitControl, GlmData, GlmFit, GlmOptions};
 use crate::model::irls::unit_deviance;
 use crate::model::link::Link;
 use crate::model::robust::cluster_robust;
@@ -61,6 +61,8 @@ pub struct Estimate {
     pub fitted: Vec<f64>,
     /// ℓ + ½ ln det(XᵀWX) of a Firth fit.
     pub penalized_log_likelihood: Option<f64>,
+    /// Penalised-likelihood-ratio p-values of a Firth fit (βⱼ = 0, penalty from the full design).
+    pub plr_p_values: Option<Vec<f64>>,
 }
 
 /// Build the design of `predictors` on the loaded records.
@@ -110,21 +112,29 @@ pub fn estimate(
     data: &SurvivalData,
     predictors: &str,
     estimator: Estimator,
+    control: &FitControl,
 ) -> Result<Estimate, Error> {
     let design = design_for(spec, data, predictors)?;
     let gd = glm_data(data, design.x.view(), &design.names, None);
-    let (glm, penalized_log_likelihood) = match (estimator, spec.interval) {
+    let (glm, penalized_log_likelihood, plr_p_values) = match (estimator, spec.interval) {
         (Estimator::Firth, _) => {
-            let f = fit_firth(&gd)?;
-            let pll = f.penalized_log_likelihood;
-            (from_firth(&gd, &design, f)?, Some(pll))
+            let f = fit_firth_with(&gd, control)?;
+            let (pll, plr) = (f.penalized_log_likelihood, f.plr_p_values.clone());
+            (from_firth(&gd, &design, f)?, Some(pll), Some(plr))
         }
         (Estimator::MaximumLikelihood, IntervalKind::Annualized) => {
             let years = ArrayView1::from(&data.years[..]);
-            let a = fit_annualized(&gd, years)?;
-            (from_annualized(&gd, &design, years, a)?, None)
+            let a = fit_annualized_with(&gd, years, control)?;
+            (
+                from_annualized(&gd, &design, years, a, control)?,
+                None,
+                None,
+            )
         }
-        (Estimator::MaximumLikelihood, _) => (fit_glm(&gd, &GlmOptions { link: spec.link })?, None),
+        (Estimator::MaximumLikelihood, _) => {
+            let opts = GlmOptions { link: spec.link };
+            (fit_glm_with(&gd, &opts, control)?, None, None)
+        }
     };
     let fitted = fitted_values(&glm, &gd, spec.interval, &data.years)?;
     Ok(Estimate {
@@ -132,6 +142,7 @@ pub fn estimate(
         design,
         fitted,
         penalized_log_likelihood,
+        plr_p_values,
     })
 }
 
@@ -297,6 +308,7 @@ fn from_annualized(
     design: &Design,
     years: ArrayView1<f64>,
     a: AnnualizedFit,
+    control: &FitControl,
 ) -> Result<GlmFit, Error> {
     let null_deviance = if design.intercept {
         let (x, names) = ones(gd.y.len());
@@ -305,7 +317,7 @@ fn from_annualized(
             terms: &names,
             ..gd.clone()
         };
-        fit_annualized(&null, years)?.deviance
+        fit_annualized_with(&null, years, control)?.deviance
     } else {
         f64::NAN
     };

@@ -13,9 +13,9 @@ use rayon::prelude::*;
 
 use super::estimate::{glm_data, Estimate};
 use super::load::SurvivalData;
-use crate::model::annualized::fit_annualized;
+use crate::model::annualized::fit_annualized_with;
 use crate::model::file::IntervalKind;
-use crate::model::glm::{fit_glm, prepare_response, GlmData, GlmOptions};
+use crate::model::glm::{fit_glm_with, prepare_response, FitControl, GlmData, GlmOptions};
 use crate::model::irls::{Problem, Response};
 use crate::model::link::Link;
 use crate::model::ModelError;
@@ -87,10 +87,11 @@ pub fn cv_log_loss(
     response: &Response,
     folds: &[u32],
     k: usize,
+    control: &FitControl,
 ) -> Result<f64, Error> {
     let per_fold: Vec<(f64, f64)> = (0..k as u32)
         .into_par_iter()
-        .map(|fold| held_out_loss(data, est, interval, response, folds, fold, k))
+        .map(|fold| held_out_loss(data, est, interval, response, (folds, fold, k), control))
         .collect::<Result<_, _>>()?;
     // Summed in fold order, so the result does not depend on the thread count.
     let (loss, weight) = per_fold
@@ -105,9 +106,8 @@ fn held_out_loss(
     est: &Estimate,
     interval: IntervalKind,
     response: &Response,
-    folds: &[u32],
-    fold: u32,
-    k: usize,
+    (folds, fold, k): (&[u32], u32, usize),
+    control: &FitControl,
 ) -> Result<(f64, f64), Error> {
     let mut loss = 0.0;
     let mut weight = 0.0;
@@ -116,18 +116,19 @@ fn held_out_loss(
         fold + 1,
         est.glm.terms.join(", ")
     );
-    let beta = fold_fit(data, est, interval, response, folds, fold).map_err(|e| match e {
-        Error::Model(ModelError::NotConverged {
-            iterations,
-            deviance,
-            hint,
-        }) => Error::Model(ModelError::NotConverged {
-            iterations,
-            deviance,
-            hint: format!("{hint} ({context})"),
-        }),
-        other => Error::Usage(format!("{context}: {other}")),
-    })?;
+    let beta =
+        fold_fit(data, est, interval, response, (folds, fold), control).map_err(|e| match e {
+            Error::Model(ModelError::NotConverged {
+                iterations,
+                deviance,
+                hint,
+            }) => Error::Model(ModelError::NotConverged {
+                iterations,
+                deviance,
+                hint: format!("{hint} ({context})"),
+            }),
+            other => Error::Usage(format!("{context}: {other}")),
+        })?;
     let x = est.design.x.view();
     for (i, row) in x.rows().into_iter().enumerate() {
         let wt = response.wt[i];
@@ -154,15 +155,15 @@ fn fold_fit(
     est: &Estimate,
     interval: IntervalKind,
     response: &Response,
-    folds: &[u32],
-    fold: u32,
+    (folds, fold): (&[u32], u32),
+    control: &FitControl,
 ) -> Result<Vec<f64>, Error> {
     let design = &est.design;
     if interval == IntervalKind::Annualized {
         let prior = masked_prior(data, folds, fold);
         let gd = glm_data(data, design.x.view(), &design.names, Some(prior.view()));
         let years = ArrayView1::from(&data.years[..]);
-        return Ok(fit_annualized(&gd, years)?.coefficients);
+        return Ok(fit_annualized_with(&gd, years, control)?.coefficients);
     }
     let wt: Vec<f64> = response
         .wt
@@ -183,14 +184,15 @@ fn fold_fit(
         link: est.glm.link,
     };
     let start = problem.pass(Some(&est.glm.coefficients));
-    match problem.run(start) {
+    match problem.run_limited(start, control.max_iterations) {
         Ok(r) if r.converged => Ok(r.beta),
         // Fall back to a full fit from the usual start, which also explains a failure
         // (separation in the fold, non-convergence).
         _ => {
             let prior = masked_prior(data, folds, fold);
             let gd = glm_data(data, design.x.view(), &design.names, Some(prior.view()));
-            Ok(fit_glm(&gd, &GlmOptions { link: est.glm.link })?.coefficients)
+            let opts = GlmOptions { link: est.glm.link };
+            Ok(fit_glm_with(&gd, &opts, control)?.coefficients)
         }
     }
 }

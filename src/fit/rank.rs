@@ -12,6 +12,7 @@ use super::load::{load_survival, LoadOptions, SurvivalData};
 use super::survival::SurvivalSpec;
 use super::{file_has_column, term_needs};
 use crate::model::diagnostics::{lr_test, require_unit_binary, roc_auc, LrTest};
+use crate::model::glm::FitControl;
 use crate::Error;
 
 /// What `rank` compares.
@@ -25,6 +26,8 @@ pub struct RankSpec {
     pub folds: usize,
     /// Seed of the shuffle of stands into folds.
     pub seed: u64,
+    /// Iteration limit of every fit (`--max-iterations`).
+    pub control: FitControl,
 }
 
 /// One candidate's fit statistics.
@@ -158,7 +161,7 @@ fn rank_loaded(
     let fits: Vec<Estimate> = spec
         .candidates
         .par_iter()
-        .map(|c| estimate(s, data, c, Estimator::MaximumLikelihood))
+        .map(|c| estimate(s, data, c, Estimator::MaximumLikelihood, &spec.control))
         .collect::<Result<_, _>>()?;
     let first = &fits[0];
     let response = base_response(&glm_data(
@@ -182,7 +185,17 @@ fn rank_loaded(
                         .ok()
                         .map(|a| a.auc)
                 },
-                || cv_log_loss(data, f, s.interval, &response, folds, spec.folds),
+                || {
+                    cv_log_loss(
+                        data,
+                        f,
+                        s.interval,
+                        &response,
+                        folds,
+                        spec.folds,
+                        &spec.control,
+                    )
+                },
             );
             Ok::<_, Error>((auc, loss?))
         })

@@ -8,7 +8,7 @@ use crate::data::{Outcome, RemeasureCounts};
 use crate::model::file::{
     CoefficientEntry, CovarianceEntry, FitInfo, IntervalKind, ModelFile, ModelKind,
 };
-use crate::model::glm::GlmFit;
+use crate::model::glm::{FitControl, GlmFit};
 use crate::model::link::Link;
 use crate::Error;
 
@@ -61,6 +61,8 @@ pub struct FitOptions {
     pub dbh_classes: Option<Vec<f64>>,
     /// Compute the fitted survival curves against diameter (`--calibration-svg`).
     pub curves: bool,
+    /// Iteration limit of the fit (`--max-iterations`, R `glm.control(maxit)`).
+    pub control: FitControl,
 }
 
 /// A fitted survival model with everything the summary and the model file need.
@@ -75,6 +77,8 @@ pub struct SurvivalFit {
     pub inference: Inference,
     /// ℓ + ½ ln det(XᵀWX) at the estimate of a Firth fit.
     pub penalized_log_likelihood: Option<f64>,
+    /// Penalised-likelihood-ratio p-values of a Firth fit, in term order.
+    pub plr_p_values: Option<Vec<f64>>,
     /// AUC, Hosmer–Lemeshow, LR test against the null model, calibration by diameter class.
     pub diagnostics: Diagnostics,
     /// Fitted survival against diameter, when asked for.
@@ -169,7 +173,7 @@ pub fn fit_loaded(
     data: &SurvivalData,
     predictors: &str,
 ) -> Result<SurvivalFit, Error> {
-    let est = estimate(spec, data, predictors, opts.estimator)?;
+    let est = estimate(spec, data, predictors, opts.estimator, &opts.control)?;
     let inference = inference(&est, data, data.clusters.as_deref())?;
     let diagnostics = diagnose(
         data,
@@ -195,6 +199,7 @@ pub fn fit_loaded(
         estimator: opts.estimator,
         inference,
         penalized_log_likelihood: est.penalized_log_likelihood,
+        plr_p_values: est.plr_p_values,
         diagnostics,
         curves,
         outcome: data.outcome,

@@ -100,14 +100,21 @@ pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
         &g.coefficients,
         &inf.std_errors,
         &inf.z,
-        &inf.p_values,
+        fit.plr_p_values.as_deref().unwrap_or(&inf.p_values),
         "z",
         z975,
     ));
-    out.push_str(&format!(
-        "  standard errors, z, p and intervals: {}\n",
-        covariance_line(fit)
-    ));
+    if fit.plr_p_values.is_some() {
+        out.push_str(&format!(
+            "  standard errors, z and Wald intervals: {}; p: penalised-likelihood-ratio tests of each coefficient = 0 (penalty from the full design, as logistf)\n",
+            covariance_line(fit)
+        ));
+    } else {
+        out.push_str(&format!(
+            "  standard errors, z, p and intervals: {}\n",
+            covariance_line(fit)
+        ));
+    }
     out.push_str(&format!(
         "\n  residual deviance {:.4} on {} df   null deviance {:.4} on {} df\n",
         g.deviance, g.df_residual, g.null_deviance, g.df_null
@@ -202,9 +209,16 @@ pub fn survival_json(fit: &SurvivalFit) -> Value {
     let inf = &fit.inference;
     let d = &fit.diagnostics;
     let coefficients: Vec<Value> = (0..g.terms.len())
-        .map(|i| {
-            json!({"term": g.terms[i], "estimate": g.coefficients[i], "std_error": inf.std_errors[i],
-                   "z": inf.z[i], "p_value": inf.p_values[i]})
+        .map(|i| match &fit.plr_p_values {
+            Some(plr) => {
+                json!({"term": g.terms[i], "estimate": g.coefficients[i], "std_error": inf.std_errors[i],
+                       "z": inf.z[i], "p_value": plr[i], "p_value_kind": "penalized_likelihood_ratio",
+                       "wald_p_value": inf.p_values[i]})
+            }
+            None => {
+                json!({"term": g.terms[i], "estimate": g.coefficients[i], "std_error": inf.std_errors[i],
+                       "z": inf.z[i], "p_value": inf.p_values[i]})
+            }
         })
         .collect();
     let (auc, auc_why) = or_reason(&d.auc, |a| json!(a.auc));

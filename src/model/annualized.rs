@@ -2,13 +2,14 @@
 //! Pᵢ = p(ηᵢ)^Lᵢ, p = logistic(η) the annual survival probability (Monserud 1976; the same form
 //! as the logistic-exposure link of Shaffer 2004). Fitted by Newton–Raphson on that likelihood.
 
-use ndarray::ArrayView1;
+use ndarray::{ArrayView, ArrayView1, CowArray, Ix1, Ix2};
 use serde::Serialize;
 
-use super::glm::{wald, GlmData};
+use super::glm::{wald, FitControl, GlmData};
+use super::irls::weighted_cross_products;
 use super::linalg::SpdFactor;
 use super::ModelError;
-use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL, MAX_ITERATIONS};
+use crate::tolerance::{IRLS_COEF_RTOL, IRLS_DEVIANCE_RTOL};
 
 /// Step-halvings tried before giving up on a Newton step.
 const MAX_HALVINGS: usize = 30;
@@ -63,26 +64,62 @@ fn record_terms(eta: f64, years: f64, y: f64) -> (f64, f64, f64) {
     (q.ln(), -big_p * g / q, -big_p * (g * g + g1 * q) / (q * q))
 }
 
-/// ℓ(β), its gradient and the Hessian (row-major p×p).
-fn evaluate(data: &GlmData, years: ArrayView1<f64>, beta: &[f64]) -> (f64, Vec<f64>, Vec<f64>) {
-    let p = beta.len();
-    let (mut ll, mut grad, mut hess) = (0.0, vec![0.0; p], vec![0.0; p * p]);
-    for (i, xi) in data.x.rows().into_iter().enumerate() {
-        let w = data.weights.map_or(1.0, |w| w[i]);
-        if w == 0.0 {
-            continue;
-        }
-        let eta = xi.dot(&ArrayView1::from(beta)) + data.offset.map_or(0.0, |o| o[i]);
-        let (l, d1, d2) = record_terms(eta, years[i], data.y[i]);
-        ll += w * l;
-        for j in 0..p {
-            grad[j] += w * d1 * xi[j];
-            for k in 0..p {
-                hess[j * p + k] += w * d2 * xi[j] * xi[k];
-            }
+/// The data of an annualised fit in contiguous form (borrowed when it already is).
+struct Columns<'a> {
+    x: CowArray<'a, f64, Ix2>,
+    y: CowArray<'a, f64, Ix1>,
+    years: CowArray<'a, f64, Ix1>,
+    weights: Option<CowArray<'a, f64, Ix1>>,
+    offset: Option<CowArray<'a, f64, Ix1>>,
+}
+
+impl<'a> Columns<'a> {
+    fn new<'d: 'a>(data: &GlmData<'d>, years: ArrayView1<'a, f64>) -> Self {
+        Columns {
+            x: contiguous(data.x),
+            y: contiguous(data.y),
+            years: contiguous(years),
+            weights: data.weights.map(contiguous),
+            offset: data.offset.map(contiguous),
         }
     }
-    (ll, grad, hess)
+}
+
+/// The view itself when it is in standard layout, else a standard-layout copy.
+fn contiguous<D: ndarray::Dimension>(v: ArrayView<'_, f64, D>) -> CowArray<'_, f64, D> {
+    if v.is_standard_layout() {
+        CowArray::from(v)
+    } else {
+        CowArray::from(v.as_standard_layout().into_owned())
+    }
+}
+
+/// A standard-layout array as a slice (never empty-handed: standard layout is contiguous).
+fn slice<'b, D: ndarray::Dimension>(a: &'b CowArray<f64, D>) -> &'b [f64] {
+    a.as_slice().unwrap_or(&[])
+}
+
+/// ℓ(β), its gradient and the Hessian (row-major p×p), in one blocked pass over the rows.
+fn evaluate(c: &Columns, beta: &[f64]) -> (f64, Vec<f64>, Vec<f64>) {
+    let (y, years) = (slice(&c.y), slice(&c.years));
+    let weights = c.weights.as_ref().map(slice);
+    let offset = c.offset.as_ref().map(slice);
+    let mut ll = 0.0;
+    let (info, grad) =
+        weighted_cross_products(slice(&c.x), beta.len(), beta, |first, eta, w, v| {
+            for (r, (&eta, (w, v))) in eta.iter().zip(w.iter_mut().zip(v)).enumerate() {
+                let i = first + r;
+                let wt = weights.map_or(1.0, |wts| wts[i]);
+                if wt == 0.0 {
+                    (*w, *v) = (0.0, 0.0);
+                    continue;
+                }
+                let (l, d1, d2) = record_terms(eta + offset.map_or(0.0, |o| o[i]), years[i], y[i]);
+                ll += wt * l;
+                (*w, *v) = (wt * d2, wt * d1);
+            }
+        });
+    (ll, grad, info)
 }
 
 fn check(data: &GlmData, years: ArrayView1<f64>) -> Result<usize, ModelError> {
@@ -133,6 +170,18 @@ fn check(data: &GlmData, years: ArrayView1<f64>) -> Result<usize, ModelError> {
 /// [`ModelError::Invalid`] for bad input, [`ModelError::NotConverged`] when Newton fails
 /// (including a Hessian that is not negative definite at the end, e.g. under separation).
 pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<AnnualizedFit, ModelError> {
+    fit_annualized_with(data, years, &FitControl::default())
+}
+
+/// [`fit_annualized`] with explicit iteration limits.
+///
+/// # Errors
+/// As [`fit_annualized`]; [`ModelError::NotConverged`] after `control.max_iterations` steps.
+pub fn fit_annualized_with(
+    data: &GlmData,
+    years: ArrayView1<f64>,
+    control: &FitControl,
+) -> Result<AnnualizedFit, ModelError> {
     let n_obs = check(data, years)?;
     let p = data.x.ncols();
     let failed = |iterations, ll: f64| {
@@ -143,8 +192,9 @@ pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<Annualiz
     }
     };
     let mut beta = vec![0.0; p];
-    let (mut ll, mut grad, mut hess) = evaluate(data, years, &beta);
-    for iteration in 1..=MAX_ITERATIONS {
+    let columns = Columns::new(data, years);
+    let (mut ll, mut grad, mut hess) = evaluate(&columns, &beta);
+    for iteration in 1..=control.max_iterations {
         let info: Vec<f64> = hess.iter().map(|h| -h).collect();
         let delta = SpdFactor::new(&info, p)
             .map(|f| f.solve(&grad))
@@ -155,7 +205,7 @@ pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<Annualiz
         let mut accepted = None;
         for _ in 0..=MAX_HALVINGS {
             let trial: Vec<f64> = beta.iter().zip(&delta).map(|(b, d)| b + step * d).collect();
-            let eval = evaluate(data, years, &trial);
+            let eval = evaluate(&columns, &trial);
             if eval.0.is_finite() && eval.0 >= ll - 1e-12 * ll.abs() {
                 accepted = Some((trial, eval));
                 break;
@@ -179,7 +229,7 @@ pub fn fit_annualized(data: &GlmData, years: ArrayView1<f64>) -> Result<Annualiz
             return Ok(finish(data, beta, covariance, ll, iteration, n_obs));
         }
     }
-    Err(failed(MAX_ITERATIONS, ll))
+    Err(failed(control.max_iterations, ll))
 }
 
 fn finish(
@@ -255,15 +305,16 @@ mod tests {
             offset: None,
         };
         let beta = [1.5, 0.3];
-        let (_, grad, hess) = evaluate(&data, years.view(), &beta);
+        let columns = Columns::new(&data, years.view());
+        let (_, grad, hess) = evaluate(&columns, &beta);
         let h = 1e-6;
         for j in 0..2 {
             let mut up = beta;
             let mut down = beta;
             up[j] += h;
             down[j] -= h;
-            let (lu, gu, _) = evaluate(&data, years.view(), &up);
-            let (ld, gd, _) = evaluate(&data, years.view(), &down);
+            let (lu, gu, _) = evaluate(&columns, &up);
+            let (ld, gd, _) = evaluate(&columns, &down);
             assert!(((lu - ld) / (2.0 * h) - grad[j]).abs() < 1e-6);
             for k in 0..2 {
                 assert!(((gu[k] - gd[k]) / (2.0 * h) - hess[k * 2 + j]).abs() < 1e-5);

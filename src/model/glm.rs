@@ -4,13 +4,17 @@
 use ndarray::{Array1, ArrayView1, ArrayView2, CowArray, Ix2};
 use serde::Serialize;
 use statrs::distribution::{ContinuousCDF, Normal};
-use statrs::function::gamma::ln_gamma;
 
 use super::irls::{unit_deviance, IrlsError, Problem, Response};
 use super::linalg::{first_aliased_column, SpdFactor};
 use super::link::Link;
 use super::separation::{self, Separation};
 use super::ModelError;
+use crate::tolerance::MAX_ITERATIONS;
+
+mod response;
+
+pub(crate) use response::{log_likelihood, prepare_response};
 
 /// The data of one binomial GLM fit. Rows whose weight (prior weight × trials) is zero are
 /// left out of every sum and count.
@@ -35,6 +39,39 @@ pub struct GlmData<'a> {
 pub struct GlmOptions {
     /// The link function.
     pub link: Link,
+}
+
+/// Limits of an iterative fit: IRLS ([`fit_glm_with`]), Firth's Newton iterations
+/// ([`crate::model::firth::fit_firth_with`]) and the annualised Newton fit
+/// ([`crate::model::annualized::fit_annualized_with`]).
+///
+/// # Examples
+/// ```
+/// use stemcast::model::glm::FitControl;
+/// let control = FitControl::default().max_iterations(10);
+/// assert_eq!(control.max_iterations, 10);
+/// assert_eq!(FitControl::default().max_iterations, stemcast::tolerance::MAX_ITERATIONS);
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct FitControl {
+    /// Iterations (weighted least-squares solves or Newton steps) before the fit gives up with
+    /// [`ModelError::NotConverged`]; default [`MAX_ITERATIONS`].
+    pub max_iterations: usize,
+}
+
+impl Default for FitControl {
+    fn default() -> Self {
+        FitControl {
+            max_iterations: MAX_ITERATIONS,
+        }
+    }
+}
+
+impl FitControl {
+    /// The same control with at most `n` iterations.
+    pub fn max_iterations(self, n: usize) -> Self {
+        FitControl { max_iterations: n }
+    }
 }
 
 /// A fitted binomial GLM: estimates, their covariance and the fit statistics. It holds no data.
@@ -124,114 +161,6 @@ fn invalid(message: String) -> ModelError {
     ModelError::Invalid(message)
 }
 
-/// Checks the shapes and values of `data` and returns the response in proportion form.
-pub(crate) fn prepare_response(data: &GlmData) -> Result<Response, ModelError> {
-    let n = data.x.nrows();
-    if data.terms.len() != data.x.ncols() {
-        return Err(invalid(format!(
-            "{} term names for {} design columns",
-            data.terms.len(),
-            data.x.ncols()
-        )));
-    }
-    for (name, len) in [
-        ("response", Some(data.y.len())),
-        ("trials", data.trials.map(|t| t.len())),
-        ("weights", data.weights.map(|t| t.len())),
-        ("offset", data.offset.map(|t| t.len())),
-    ] {
-        if let Some(len) = len.filter(|&len| len != n) {
-            return Err(invalid(format!("{name} has {len} values for {n} rows")));
-        }
-    }
-    // A branch-free scan first (vectorised on contiguous data); the position only on failure.
-    let all_finite = match data.x.as_slice() {
-        Some(xs) => xs.iter().fold(true, |ok, v| ok & v.is_finite()),
-        None => data.x.iter().all(|v| v.is_finite()),
-    };
-    if let Some(i) = (!all_finite)
-        .then(|| data.x.iter().position(|v| !v.is_finite()))
-        .flatten()
-    {
-        let (r, c) = (i / data.x.ncols().max(1), i % data.x.ncols().max(1));
-        return Err(invalid(format!(
-            "row {}: term `{}` is not a finite number",
-            r + 1,
-            data.terms[c]
-        )));
-    }
-    if data.trials.is_none() && data.weights.is_none() && data.offset.is_none() {
-        // The common unweighted 0/1 case, checked without branches; errors fall through to
-        // the row-by-row loop, which names the row.
-        let binary = data
-            .y
-            .iter()
-            .fold(true, |ok, &v| ok & (v == 0.0 || v == 1.0));
-        if binary {
-            return Ok(Response::new(data.y.to_vec(), vec![1.0; n]));
-        }
-    }
-    let mut y = Vec::with_capacity(n);
-    let mut wt = Vec::with_capacity(n);
-    for i in 0..n {
-        let row = i + 1;
-        let w = data.weights.map_or(1.0, |w| w[i]);
-        if !(w.is_finite() && w >= 0.0) {
-            return Err(invalid(format!(
-                "row {row}: weight {w} is not a non-negative number"
-            )));
-        }
-        if let Some(o) = data.offset.filter(|o| !o[i].is_finite()) {
-            return Err(invalid(format!("row {row}: offset {} is not finite", o[i])));
-        }
-        let yi = data.y[i];
-        match data.trials {
-            Some(t) => {
-                let ni = t[i];
-                if !(ni.is_finite() && ni >= 0.0 && yi.is_finite() && (0.0..=ni).contains(&yi)) {
-                    return Err(invalid(format!(
-                        "row {row}: {yi} successes out of {ni} trials is not a valid count"
-                    )));
-                }
-                y.push(if ni > 0.0 { yi / ni } else { 0.0 });
-                wt.push(w * ni);
-            }
-            None => {
-                if yi != 0.0 && yi != 1.0 {
-                    return Err(invalid(format!("row {row}: response {yi} is not 0 or 1")));
-                }
-                y.push(yi);
-                wt.push(w);
-            }
-        }
-    }
-    Ok(Response::new(y, wt))
-}
-
-/// The full binomial log-likelihood from the deviance: ℓ = −D/2 + ℓ_saturated.
-///
-/// # Formula
-/// 0/1 rows: ℓ = Σ wᵢ [yᵢ ln μᵢ + (1 − yᵢ) ln(1 − μᵢ)] = −D/2 (the saturated model fits 0/1
-/// exactly). Successes sᵢ of nᵢ trials with prior weight wᵢ, proportion yᵢ = sᵢ/nᵢ:
-/// ℓ = Σ wᵢ [ln C(nᵢ, sᵢ) + sᵢ ln μᵢ + (nᵢ − sᵢ) ln(1 − μᵢ)]
-///   = −D/2 + Σ wᵢ [ln C(nᵢ, sᵢ) + nᵢ (yᵢ ln yᵢ + (1 − yᵢ) ln(1 − yᵢ))], ln C via ln Γ.
-pub(crate) fn log_likelihood(data: &GlmData, r: &Response, deviance: f64) -> f64 {
-    let Some(trials) = data.trials else {
-        return -deviance / 2.0;
-    };
-    let xlogx = |v: f64| if v > 0.0 { v * v.ln() } else { 0.0 };
-    let saturated: f64 = (0..r.y.len())
-        .filter(|&i| r.wt[i] > 0.0)
-        .map(|i| {
-            let (n, s) = (trials[i], data.y[i]);
-            let prior = data.weights.map_or(1.0, |w| w[i]);
-            let ln_choose = ln_gamma(n + 1.0) - ln_gamma(s + 1.0) - ln_gamma(n - s + 1.0);
-            prior * ln_choose + r.wt[i] * (xlogx(r.y[i]) + xlogx(1.0 - r.y[i]))
-        })
-        .sum();
-    -deviance / 2.0 + saturated
-}
-
 /// Index of a column of ones (over rows with non-zero weight), the model's intercept.
 fn intercept_column(x: &[f64], p: usize, r: &Response) -> Option<usize> {
     (0..p).find(|&j| {
@@ -278,6 +207,19 @@ pub(crate) fn rank_deficient(
 /// naming an aliased term, [`ModelError::Separation`] when the MLE does not exist, and
 /// [`ModelError::NotConverged`] after [`crate::tolerance::MAX_ITERATIONS`] iterations.
 pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> {
+    fit_glm_with(data, opts, &FitControl::default())
+}
+
+/// [`fit_glm`] with explicit iteration limits.
+///
+/// # Errors
+/// As [`fit_glm`]; [`ModelError::NotConverged`] names the iteration count when IRLS stops at
+/// `control.max_iterations` without meeting the stopping rules and no separation explains it.
+pub fn fit_glm_with(
+    data: &GlmData,
+    opts: &GlmOptions,
+    control: &FitControl,
+) -> Result<GlmFit, ModelError> {
     let response = prepare_response(data)?;
     let n_obs = response.wt.iter().filter(|&&w| w > 0.0).count();
     let p = data.x.ncols();
@@ -311,7 +253,7 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
             return Err(separation_error(s));
         }
     }
-    let fit = problem.run(start);
+    let fit = problem.run_limited(start, control.max_iterations);
     let suspicious = match &fit {
         Ok(f) => !f.converged || f.last.extreme,
         Err(_) => true,
@@ -329,10 +271,18 @@ pub fn fit_glm(data: &GlmData, opts: &GlmOptions) -> Result<GlmFit, ModelError> 
         },
     )?;
     if !fit.converged {
+        let hint = if fit.iterations >= control.max_iterations {
+            format!(
+                "the limit of {} iterations was reached; raise it, or check the data for extreme values or try another link",
+                control.max_iterations
+            )
+        } else {
+            "no step along the IRLS direction lowered the deviance; check the data for extreme values or try another link".into()
+        };
         return Err(ModelError::NotConverged {
             iterations: fit.iterations,
             deviance: fit.last.deviance,
-            hint: "check the data for extreme values or try another link".into(),
+            hint,
         });
     }
     let covariance = SpdFactor::new(&fit.last.xtwx, p)

@@ -4,7 +4,7 @@
 use ndarray::{ArrayView1, ArrayView2};
 use statrs::distribution::{ContinuousCDF, StudentsT};
 
-use super::lsq::least_squares_qr;
+use super::linalg::least_squares_qr;
 use super::ModelError;
 use crate::model::file::GrowthResponse;
 

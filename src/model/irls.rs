@@ -4,7 +4,10 @@
 //! 128 rows (see `pass`): the linear predictor, μ, the deviance and the lower triangle of XᵀWX
 //! and XᵀWz are accumulated together, with no n-sized temporaries and nothing allocated per row.
 
+mod blocked;
 mod pass;
+
+pub(crate) use blocked::weighted_cross_products;
 
 use super::linalg::SpdFactor;
 use super::link::Link;
@@ -111,12 +114,17 @@ impl Problem<'_> {
     /// hold or [`MAX_ITERATIONS`] solves have been made, halving the step whenever the deviance
     /// increases.
     pub fn run(&self, start: Pass) -> Result<IrlsResult, IrlsError> {
+        self.run_limited(start, MAX_ITERATIONS)
+    }
+
+    /// [`Problem::run`] with at most `max_iterations` weighted least-squares solves.
+    pub fn run_limited(&self, start: Pass, max_iterations: usize) -> Result<IrlsResult, IrlsError> {
         let mut current = start;
         let mut beta_old: Option<Vec<f64>> = None;
         let mut iterations = 0;
         let mut converged = false;
         let mut halved_iterations = 0;
-        while iterations < MAX_ITERATIONS {
+        while iterations < max_iterations {
             let factor =
                 SpdFactor::new(&current.xtwx, self.p).ok_or(IrlsError::Singular { iterations })?;
             let mut beta = factor.solve(&current.xtwz);

@@ -1,9 +1,14 @@
-//! Small dense p×p linear algebra for the model fits: Cholesky solve, inverse and log
-//! determinant of a symmetric positive-definite matrix, and detection of aliased columns.
+//! Small dense linear algebra for the model fits: Cholesky solve, inverse and log
+//! determinant of a symmetric positive-definite p×p matrix, detection of aliased columns, and
+//! least squares by Householder QR (the growth OLS).
 //!
-//! This is the only module that uses nalgebra; everything else passes plain row-major slices.
+//! This is the only module that uses nalgebra; everything else passes plain row-major slices
+//! or ndarray views.
 
 use nalgebra::{DMatrix, DVector};
+use ndarray::{ArrayView1, ArrayView2};
+
+use super::ModelError;
 
 /// A column is aliased when, after scaling the Gram matrix to unit diagonal, the part of it not
 /// explained by the earlier columns (1 − R², uncentred) is below this.
@@ -85,6 +90,61 @@ pub fn first_aliased_column(gram: &[f64], p: usize) -> Option<usize> {
     None
 }
 
+/// Relative size of a QR diagonal below which a column counts as aliased (R `lm` uses 1e-7).
+pub const QR_ALIAS_RTOL: f64 = 1e-7;
+
+/// Solution of a least-squares problem.
+pub(crate) struct LeastSquares {
+    /// β̂.
+    pub coefficients: Vec<f64>,
+    /// (XᵀX)⁻¹ = R⁻¹R⁻ᵀ.
+    pub unscaled_covariance: Vec<Vec<f64>>,
+}
+
+/// Solve min ‖y − Xβ‖ by Householder QR without pivoting, so that the first column found to
+/// be (numerically) a combination of the columns before it is the one named as aliased.
+pub(crate) fn least_squares_qr(
+    x: ArrayView2<f64>,
+    y: ArrayView1<f64>,
+    names: &[String],
+) -> Result<LeastSquares, ModelError> {
+    let (n, p) = x.dim();
+    let m = DMatrix::from_fn(n, p, |i, j| x[[i, j]]);
+    let norms: Vec<f64> = (0..p).map(|j| m.column(j).norm()).collect();
+    let qr = m.qr();
+    let r = qr.r();
+    for j in 0..p {
+        if r[(j, j)].abs() <= QR_ALIAS_RTOL * norms[j] || norms[j] == 0.0 {
+            let name = names
+                .get(j)
+                .cloned()
+                .unwrap_or_else(|| format!("column {j}"));
+            return Err(ModelError::RankDeficient {
+                message: format!(
+                    "term `{name}` is a linear combination of the terms before it (collinear predictors), so its coefficient cannot be estimated; drop it"
+                ),
+                term: name,
+            });
+        }
+    }
+    let mut qty = DVector::from_iterator(n, y.iter().copied());
+    qr.q_tr_mul(&mut qty);
+    let rp = r.view((0, 0), (p, p)).into_owned();
+    let beta = rp
+        .solve_upper_triangular(&qty.rows(0, p).into_owned())
+        .ok_or_else(|| ModelError::Invalid("singular triangular factor".into()))?;
+    let rinv = rp
+        .solve_upper_triangular(&DMatrix::identity(p, p))
+        .ok_or_else(|| ModelError::Invalid("singular triangular factor".into()))?;
+    let cov = &rinv * rinv.transpose();
+    Ok(LeastSquares {
+        coefficients: beta.iter().copied().collect(),
+        unscaled_covariance: (0..p)
+            .map(|i| (0..p).map(|j| cov[(i, j)]).collect())
+            .collect(),
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -134,5 +194,46 @@ mod tests {
         assert_eq!(first_aliased_column(&g, 3), None);
         let g = gram(&[one, vec![0.0; 5], x1]);
         assert_eq!(first_aliased_column(&g, 3), Some(1));
+    }
+
+    // Derived analytically: x = 0, 1, 2 and y = 1, 2, 4 give x̄ = 1, ȳ = 7/3, Sxy = 3, Sxx = 2,
+    // so slope 3/2 and intercept 7/3 − 3/2 = 5/6; XᵀX = [[3, 3], [3, 5]] has inverse
+    // [[5, −3], [−3, 3]] / 6.
+    #[test]
+    fn least_squares_by_qr() {
+        let x = ndarray::array![[1.0, 0.0], [1.0, 1.0], [1.0, 2.0]];
+        let y = ndarray::array![1.0, 2.0, 4.0];
+        let names = ["(intercept)".to_string(), "x".to_string()];
+        let ls = least_squares_qr(x.view(), y.view(), &names).unwrap();
+        assert!((ls.coefficients[0] - 5.0 / 6.0).abs() < 1e-14);
+        assert!((ls.coefficients[1] - 1.5).abs() < 1e-14);
+        let expected = [[5.0 / 6.0, -0.5], [-0.5, 0.5]];
+        for (got, want) in ls.unscaled_covariance.iter().zip(expected) {
+            for (g, w) in got.iter().zip(want) {
+                assert!((g - w).abs() < 1e-14);
+            }
+        }
+    }
+
+    #[test]
+    fn least_squares_names_the_aliased_column() {
+        // z = 2 + x exactly, so z is the later member of a collinear set.
+        let x = ndarray::array![
+            [1.0, 0.0, 2.0],
+            [1.0, 1.0, 3.0],
+            [1.0, 2.0, 4.0],
+            [1.0, 5.0, 7.0]
+        ];
+        let y = ndarray::array![1.0, 2.0, 4.0, 3.0];
+        let names = ["(intercept)".to_string(), "x".to_string(), "z".to_string()];
+        match least_squares_qr(x.view(), y.view(), &names) {
+            Err(ModelError::RankDeficient { term, .. }) => assert_eq!(term, "z"),
+            _ => panic!("expected the aliased column z"),
+        }
+        let zero = ndarray::array![[1.0, 0.0], [1.0, 0.0], [1.0, 0.0]];
+        match least_squares_qr(zero.view(), y.slice(ndarray::s![..3]), &names[..2]) {
+            Err(ModelError::RankDeficient { term, .. }) => assert_eq!(term, "x"),
+            _ => panic!("expected the zero column x"),
+        }
     }
 }

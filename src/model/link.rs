@@ -116,6 +116,27 @@ impl Link {
         d.max(MU_EPS)
     }
 
+    /// The second derivative d²μ/dη² at η (no lower bound), for the observed information.
+    ///
+    /// # Formula
+    /// logit: μ′(1 − 2μ); probit: −η φ(η); cloglog: μ′(1 − e^η) with μ′ = exp(η − e^η).
+    pub fn mu_eta_derivative(self, eta: f64) -> f64 {
+        match self {
+            Link::Logit => {
+                let e = (-eta.abs()).exp();
+                // 1 − 2μ = (1 − e^η)/(1 + e^η) = −sign(η)(1 − e^−|η|)/(1 + e^−|η|).
+                let d = e / ((1.0 + e) * (1.0 + e));
+                -eta.signum() * d * (1.0 - e) / (1.0 + e)
+            }
+            Link::Probit => -eta * Normal::standard().pdf(eta),
+            Link::Cloglog => {
+                let eta = eta.min(CLOGLOG_ETA_MAX);
+                let e = eta.exp();
+                (eta - e).exp() * (1.0 - e)
+            }
+        }
+    }
+
     /// The μ and dμ/dη at η in one call (one exponential for logit, the hot path of IRLS).
     #[inline]
     pub fn inverse_and_derivative(self, eta: f64) -> (f64, f64) {
@@ -190,6 +211,21 @@ mod tests {
                 let (mu, d) = link.inverse_and_derivative(eta);
                 assert!((mu - link.inverse(eta)).abs() < 1e-15);
                 assert!((d - analytic).abs() < 1e-15);
+            }
+        }
+    }
+
+    #[test]
+    fn second_derivative_matches_central_difference() {
+        let h = 1e-5;
+        for link in LINKS {
+            for eta in [-4.0, -1.2, 0.0, 0.4, 1.9, 3.0] {
+                let numeric = (link.mu_eta(eta + h) - link.mu_eta(eta - h)) / (2.0 * h);
+                let analytic = link.mu_eta_derivative(eta);
+                assert!(
+                    (numeric - analytic).abs() < 1e-8 * analytic.abs().max(1e-3),
+                    "{link} at {eta}: {numeric} vs {analytic}"
+                );
             }
         }
     }

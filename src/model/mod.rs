@@ -11,7 +11,6 @@ pub mod growth;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
-mod lsq;
 pub mod robust;
 pub mod separation;
 pub mod stored;

@@ -1,5 +1,7 @@
-//! Cluster-robust (sandwich) covariance of a binomial GLM, for records that are not
-//! independent within clusters (trees in one plot).
+//! Alternative covariances of a binomial GLM's coefficients: cluster-robust (sandwich), for
+//! records that are not independent within clusters (trees in one plot), and the inverse
+//! observed information (Stata, Greene, statsmodels `Probit`), which differs from the model's
+//! expected-information covariance for the non-canonical links.
 
 use std::collections::HashMap;
 use std::hash::Hash;
@@ -7,6 +9,7 @@ use std::hash::Hash;
 use serde::Serialize;
 
 use super::glm::{GlmData, GlmFit};
+use super::linalg::SpdFactor;
 use super::link::variance;
 use super::ModelError;
 
@@ -47,12 +50,7 @@ pub fn cluster_robust<K: Eq + Hash>(
     let mut index: HashMap<&K, usize> = HashMap::new();
     let mut n_obs = 0usize;
     for i in 0..n {
-        let prior = data.weights.map_or(1.0, |w| w[i]);
-        let (wt, y) = match data.trials {
-            Some(t) if t[i] > 0.0 => (prior * t[i], data.y[i] / t[i]),
-            Some(_) => (0.0, 0.0),
-            None => (prior, data.y[i]),
-        };
+        let (wt, y) = row_response(data, i);
         if wt == 0.0 {
             continue;
         }
@@ -104,5 +102,74 @@ pub fn cluster_robust<K: Eq + Hash>(
         covariance,
         std_errors,
         n_clusters: groups,
+    })
+}
+
+/// The total weight (prior weight × trials) and observed proportion of row i.
+fn row_response(data: &GlmData, i: usize) -> (f64, f64) {
+    let prior = data.weights.map_or(1.0, |w| w[i]);
+    match data.trials {
+        Some(t) if t[i] > 0.0 => (prior * t[i], data.y[i] / t[i]),
+        Some(_) => (0.0, 0.0),
+        None => (prior, data.y[i]),
+    }
+}
+
+/// The inverse observed information of a fit's coefficients.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ObservedInformation {
+    /// −H⁻¹ at the estimate, rows and columns in the fit's term order.
+    pub covariance: Vec<Vec<f64>>,
+    /// √ of its diagonal.
+    pub std_errors: Vec<f64>,
+}
+
+/// The covariance −H⁻¹ from the observed information (the negative Hessian of ℓ) at the
+/// estimate of `fit`, refitted data `data`. For the logit link it equals the fit's covariance.
+///
+/// # Formula
+/// With y a proportion, w = prior weight × trials, V = μ(1 − μ), μ′ = dμ/dη, μ″ = d²μ/dη²:
+/// −∂²ℓ/∂η² = w [μ′²/V − (y − μ)(μ″/V − μ′²(1 − 2μ)/V²)] per row, and
+/// J = Σᵢ (−∂²ℓᵢ/∂ηᵢ²) xᵢxᵢᵀ.
+///
+/// # Errors
+/// [`ModelError::Invalid`] when the design does not match the fit or J is not positive
+/// definite (the estimate is not a maximum of ℓ).
+pub fn observed_information(
+    fit: &GlmFit,
+    data: &GlmData,
+) -> Result<ObservedInformation, ModelError> {
+    let eta = fit.linear_predictor(data.x, data.offset)?;
+    let k = fit.coefficients.len();
+    let mut info = vec![0.0; k * k];
+    for (i, xi) in data.x.rows().into_iter().enumerate() {
+        let (wt, y) = row_response(data, i);
+        if wt == 0.0 {
+            continue;
+        }
+        let mu = fit.link.inverse(eta[i]);
+        let (d, d2, v) = (
+            fit.link.mu_eta(eta[i]),
+            fit.link.mu_eta_derivative(eta[i]),
+            variance(mu),
+        );
+        let h = wt * (d * d / v - (y - mu) * (d2 / v - d * d * (1.0 - 2.0 * mu) / (v * v)));
+        for a in 0..k {
+            for b in 0..k {
+                info[a * k + b] += h * xi[a] * xi[b];
+            }
+        }
+    }
+    let covariance = SpdFactor::new(&info, k)
+        .ok_or_else(|| {
+            ModelError::Invalid(
+                "the observed information is not positive definite at the estimate".into(),
+            )
+        })?
+        .inverse();
+    let std_errors = (0..k).map(|j| covariance[j][j].sqrt()).collect();
+    Ok(ObservedInformation {
+        covariance,
+        std_errors,
     })
 }

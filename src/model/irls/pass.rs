@@ -50,7 +50,7 @@ impl DevianceSum {
 }
 
 /// Rows per block of a pass.
-const BLOCK: usize = 128;
+pub(super) const BLOCK: usize = 128;
 
 /// The offset of rows without one.
 const ZEROS: [f64; BLOCK] = [0.0; BLOCK];
@@ -279,7 +279,7 @@ impl Problem<'_> {
 
 /// Adds Σ w·xxᵀ (lower triangle) and Σ wz·x over the first `rows` rows of a block held as
 /// columns.
-fn accumulate_columns<const P: usize>(
+pub(super) fn accumulate_columns<const P: usize>(
     cols: &[[f64; BLOCK]; P],
     rows: usize,
     w: &[f64; BLOCK],
@@ -320,7 +320,7 @@ fn dot(x: &[f64], y: &[f64]) -> f64 {
 
 /// Adds w·xxᵀ (lower triangle) and wz·x for one row.
 #[inline]
-fn accumulate(xtwx: &mut [f64], xtwz: &mut [f64], xi: &[f64], w: f64, wz: f64) {
+pub(super) fn accumulate(xtwx: &mut [f64], xtwz: &mut [f64], xi: &[f64], w: f64, wz: f64) {
     let p = xi.len();
     for (j, &xj) in xi.iter().enumerate() {
         let wxj = w * xj;

@@ -1,0 +1,83 @@
+//! The iteration limit of `FitControl`: a fit that needs more iterations than allowed is
+//! refused as not converged (a runtime failure), naming the iteration count.
+
+mod glm_common;
+
+use glm_common::*;
+use ndarray::Array1;
+use stemcast::model::annualized::{fit_annualized, fit_annualized_with};
+use stemcast::model::firth::{fit_firth, fit_firth_with};
+use stemcast::model::glm::{fit_glm, fit_glm_with, FitControl, GlmOptions};
+use stemcast::model::ModelError;
+
+fn assert_not_converged_in(result: Result<impl std::fmt::Debug, ModelError>, limit: usize) {
+    match result {
+        Err(e @ ModelError::NotConverged { iterations, .. }) => {
+            assert_eq!(iterations, limit);
+            assert!(e.is_runtime());
+            let message = e.to_string();
+            assert!(
+                message.contains(&format!("did not converge in {limit} iterations")),
+                "{message}"
+            );
+        }
+        other => panic!("expected NotConverged, got {other:?}"),
+    }
+}
+
+// bliss_logit_counts.json (Bliss 1935; statsmodels 0.15.0 / R 4.2.2): IRLS from the usual
+// start needs more than 2 iterations, so a limit of 2 must refuse the fit.
+#[test]
+fn glm_refused_at_the_iteration_limit() {
+    let c = case("bliss_logit_counts");
+    let d = case_data(&c);
+    let opts = GlmOptions { link: link_of(&c) };
+    let full = fit_glm(&glm_data(&d), &opts).unwrap();
+    assert!(full.iterations > 2, "needs {} iterations", full.iterations);
+    let control = FitControl::default().max_iterations(2);
+    let result = fit_glm_with(&glm_data(&d), &opts, &control);
+    if let Err(ModelError::NotConverged { hint, .. }) = &result {
+        assert!(hint.contains("limit of 2 iterations"), "{hint}");
+    }
+    assert_not_converged_in(result, 2);
+    // The limit that the fit needs is enough (the same estimate).
+    let control = FitControl::default().max_iterations(full.iterations);
+    let again = fit_glm_with(&glm_data(&d), &opts, &control).unwrap();
+    assert_eq!(again.coefficients, full.coefficients);
+}
+
+// endometrial_firth.json (Heinze & Schemper 2002): the Firth fit needs more than 2 steps.
+#[test]
+fn firth_refused_at_the_iteration_limit() {
+    let d = case_data(&case("endometrial_firth"));
+    let full = fit_firth(&glm_data(&d)).unwrap();
+    assert!(full.iterations > 2, "needs {} iterations", full.iterations);
+    let control = FitControl::default().max_iterations(2);
+    assert_not_converged_in(fit_firth_with(&glm_data(&d), &control), 2);
+}
+
+// birthwt_logit.json with every interval 1 (the annualised model is then the logit fit).
+#[test]
+fn annualized_refused_at_the_iteration_limit() {
+    let d = case_data(&case("birthwt_logit"));
+    let years = Array1::ones(d.y.len());
+    let full = fit_annualized(&glm_data(&d), years.view()).unwrap();
+    assert!(full.iterations > 2, "needs {} iterations", full.iterations);
+    let control = FitControl::default().max_iterations(2);
+    assert_not_converged_in(
+        fit_annualized_with(&glm_data(&d), years.view(), &control),
+        2,
+    );
+}
+
+// Separation explains non-convergence: separation_toy_firth.json (complete separation) is
+// refused as Separation even with a limit of 1 iteration.
+#[test]
+fn separation_wins_over_the_iteration_limit() {
+    let d = case_data(&case("separation_toy_firth"));
+    let control = FitControl::default().max_iterations(1);
+    match fit_glm_with(&glm_data(&d), &GlmOptions::default(), &control) {
+        Err(ModelError::Separation { kind, .. }) => assert_eq!(kind, "complete"),
+        other => panic!("expected Separation, got {other:?}"),
+    }
+}
