@@ -174,10 +174,13 @@ pub struct SurvivalArgs {
     #[command(flatten)]
     model: SurvivalModelArgs,
     /// Cluster-robust (CR1 sandwich) covariance by this column, e.g. the plot: trees in one
-    /// plot are not independent. The summary, JSON and model file then carry it.
+    /// plot are not independent. The summary, JSON and model file then carry it. Ordinary
+    /// GLM fits only (not with --firth or --interval annualized).
     #[arg(long, value_name = "COL")]
     cluster: Option<String>,
     /// Firth's penalised likelihood (logit link only): finite estimates under separation.
+    /// Standard errors from the penalised information (Wald); p-values from
+    /// penalised-likelihood-ratio tests (as logistf).
     #[arg(long)]
     firth: bool,
     /// Lower bounds of the diameter classes of the calibration table; classes are
