@@ -1,13 +1,15 @@
 //! The iteration limit of `FitControl`: a fit that needs more iterations than allowed is
 //! refused as not converged (a runtime failure), naming the iteration count.
 
+#[path = "glm_common/fit1m.rs"]
+mod fit1m;
 mod glm_common;
 
 use glm_common::*;
-use ndarray::Array1;
+use ndarray::{Array1, Array2};
 use stemcast::model::annualized::{fit_annualized, fit_annualized_with};
 use stemcast::model::firth::{fit_firth, fit_firth_with};
-use stemcast::model::glm::{fit_glm, fit_glm_with, FitControl, GlmOptions};
+use stemcast::model::glm::{fit_glm, fit_glm_with, FitControl, GlmData, GlmOptions};
 use stemcast::model::ModelError;
 
 fn assert_not_converged_in(result: Result<impl std::fmt::Debug, ModelError>, limit: usize) {
@@ -78,6 +80,57 @@ fn separation_wins_over_the_iteration_limit() {
     let control = FitControl::default().max_iterations(1);
     match fit_glm_with(&glm_data(&d), &GlmOptions::default(), &control) {
         Err(ModelError::Separation { kind, .. }) => assert_eq!(kind, "complete"),
+        other => panic!("expected Separation, got {other:?}"),
+    }
+}
+
+fn unweighted<'a>(x: &'a Array2<f64>, terms: &'a [String], y: &'a Array1<f64>) -> GlmData<'a> {
+    GlmData {
+        x: x.view(),
+        terms,
+        y: y.view(),
+        trials: None,
+        weights: None,
+        offset: None,
+    }
+}
+
+// Above separation::ALWAYS_CHECK_MAX_ROWS (20,000) separation is only checked after IRLS
+// stops; on 30,000 rows of the FIT-1M workload (design §9, generating coefficients known, no
+// separation) a limit of 2 iterations must end as NotConverged, not as Separation.
+#[test]
+fn large_data_stopped_at_the_limit_is_not_converged() {
+    let (x, y) = fit1m::generate(30_000, 20_240_501);
+    let terms = fit1m::terms();
+    let control = FitControl::default().max_iterations(2);
+    let result = fit_glm_with(
+        &unweighted(&x, &terms, &y),
+        &GlmOptions::default(),
+        &control,
+    );
+    assert_not_converged_in(result, 2);
+}
+
+// Derived: y = 1 exactly when x = 2 on 30,000 rows (x in {0, 1, 2}) is quasi-complete
+// separation by x; stopped at 3 iterations, the post-IRLS check must still name it.
+#[test]
+fn large_data_separation_explains_the_limit() {
+    let n = 30_000;
+    let x = Array2::from_shape_fn((n, 2), |(i, j)| if j == 0 { 1.0 } else { (i % 3) as f64 });
+    let y = Array1::from_iter(
+        (0..n).map(|i| f64::from(u8::from(i % 3 == 2 || (i % 3 == 1 && i % 2 == 0)))),
+    );
+    let terms = vec!["(intercept)".to_string(), "x".to_string()];
+    let control = FitControl::default().max_iterations(3);
+    match fit_glm_with(
+        &unweighted(&x, &terms, &y),
+        &GlmOptions::default(),
+        &control,
+    ) {
+        Err(ModelError::Separation { kind, terms }) => {
+            assert_eq!(kind, "quasi-complete");
+            assert_eq!(terms, vec!["x".to_string()]);
+        }
         other => panic!("expected Separation, got {other:?}"),
     }
 }
