@@ -4,11 +4,13 @@ use std::path::PathBuf;
 
 use clap::{Args, Subcommand, ValueEnum};
 use stemcast::data::{ColumnNames, Outcome, Units};
+use stemcast::fit::estimate::Estimator;
 use stemcast::fit::growth::{fit_growth, GrowthSpec, GrowthTarget};
 use stemcast::fit::summary;
-use stemcast::fit::survival::{fit_survival, SurvivalResponse, SurvivalSpec};
+use stemcast::fit::survival::{fit_survival_with, FitOptions, SurvivalResponse, SurvivalSpec};
 use stemcast::fit::{parse_references, DataOptions, Years};
 use stemcast::model::file::{GrowthResponse, IntervalKind, ModelFile};
+use stemcast::model::glm::FitControl;
 use stemcast::model::link::Link;
 use stemcast::Error;
 
@@ -64,15 +66,11 @@ enum ResponseArg {
     AnnualIncrement,
 }
 
-/// Options shared by both fits.
+/// Where the data is and how to read it: shared by `fit survival`, `fit growth` and `rank`.
 #[derive(Debug, Args)]
-pub struct CommonArgs {
+pub struct DataArgs {
     /// Remeasurement CSV: one row per tree.
-    data: PathBuf,
-    /// Comma-separated predictor terms: names, ln(x), ln(x+c), sqrt(x), x^k, name=level, a:b.
-    /// A bare categorical name expands to one indicator per non-reference level.
-    #[arg(long, short = 'p')]
-    predictors: String,
+    pub(crate) data: PathBuf,
     /// Stand (plot) column, for the derived covariates ba, bal, qmd, rel_dbh, stems.
     #[arg(long, default_value = "stand")]
     stand: String,
@@ -104,6 +102,17 @@ pub struct CommonArgs {
     /// Units of diameters and per-area values.
     #[arg(long, value_enum, default_value = "metric")]
     units: UnitsArg,
+}
+
+/// Options shared by both fits.
+#[derive(Debug, Args)]
+pub struct CommonArgs {
+    #[command(flatten)]
+    data: DataArgs,
+    /// Comma-separated predictor terms: names, ln(x), ln(x+c), sqrt(x), x^k, name=level, a:b.
+    /// A bare categorical name expands to one indicator per non-reference level.
+    #[arg(long, short = 'p')]
+    predictors: String,
     /// Write the model file (TOML) here.
     #[arg(long, value_name = "MODEL.toml")]
     out: Option<PathBuf>,
@@ -112,11 +121,10 @@ pub struct CommonArgs {
     format: Format,
 }
 
-/// `fit survival` options.
+/// The survival model: response, weights, offset, link and interval. Shared by `fit survival`
+/// and `rank`.
 #[derive(Debug, Args)]
-pub struct SurvivalArgs {
-    #[command(flatten)]
-    common: CommonArgs,
+pub struct SurvivalModelArgs {
     /// Status column: 1/0, true/false, yes/no, alive/dead; cut/harvested/removed are censored.
     #[arg(long, default_value = "alive")]
     status: String,
@@ -138,11 +146,66 @@ pub struct SurvivalArgs {
     /// Link function.
     #[arg(long, value_enum, default_value = "logit")]
     link: LinkArg,
-    /// How the remeasurement interval enters: fixed (all equal), annualized (P = p^L) or
-    /// exposure (cloglog, outcome dead, offset ln L).
+    /// How the remeasurement interval enters: fixed (all equal), annualized (P = p^L, logit,
+    /// outcome alive, needs --years-col) or exposure (cloglog, outcome dead, offset ln L, needs
+    /// --years-col).
     #[arg(long, value_enum, default_value = "fixed")]
     interval: IntervalArg,
+    /// Give up (exit code 1) after this many iterations (IRLS solves or Newton steps), like R's
+    /// glm.control(maxit). Default 50.
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    max_iterations: Option<u32>,
 }
+
+/// The iteration limit of the model options.
+pub(crate) fn control(m: &SurvivalModelArgs) -> FitControl {
+    match m.max_iterations {
+        Some(n) => FitControl::default().max_iterations(n as usize),
+        None => FitControl::default(),
+    }
+}
+
+/// `fit survival` options.
+#[derive(Debug, Args)]
+#[command(after_long_help = SURVIVAL_HELP)]
+pub struct SurvivalArgs {
+    #[command(flatten)]
+    common: CommonArgs,
+    #[command(flatten)]
+    model: SurvivalModelArgs,
+    /// Cluster-robust (CR1 sandwich) covariance by this column, e.g. the plot: trees in one
+    /// plot are not independent. The summary, JSON and model file then carry it. Ordinary
+    /// GLM fits only (not with --firth or --interval annualized).
+    #[arg(long, value_name = "COL")]
+    cluster: Option<String>,
+    /// Firth's penalised likelihood (logit link only): finite estimates under separation.
+    /// Standard errors from the penalised information (Wald); p-values from
+    /// penalised-likelihood-ratio tests (as logistf).
+    #[arg(long)]
+    firth: bool,
+    /// Lower bounds of the diameter classes of the calibration table; classes are
+    /// [lower, next lower), the last one open. Default: 0,5,10,15,20,25,30,40,50,60 cm
+    /// (0,2,4,6,8,10,12,16,20,24 in), bounds above the largest diameter dropped.
+    #[arg(long, value_name = "B0,B1,...", value_delimiter = ',')]
+    dbh_classes: Option<Vec<f64>>,
+    /// Draw observed against predicted survival by diameter class and the fitted survival
+    /// curve against diameter (one curve per level of a categorical predictor; other
+    /// covariates at their mean or reference level) to this SVG file.
+    #[arg(long, value_name = "FILE")]
+    calibration_svg: Option<PathBuf>,
+}
+
+/// The diagnostics section of `fit survival --help`.
+const SURVIVAL_HELP: &str = "Diagnostics in every summary (and the JSON keys auc, hosmer_lemeshow, lr_test_vs_null, calibration):
+  ROC AUC of the modelled outcome (Mann-Whitney, ties count 1/2).
+  Hosmer-Lemeshow: 10 groups cut at the type-7 deciles of the fitted probabilities, repeated
+    cut points dropped, groups right-closed so that ties stay together; the statistic sums
+    (O - E)^2/E over both outcome columns and is referred to chi-square on 8 df (as R
+    ResourceSelection::hoslem.test with g = 10).
+  Likelihood-ratio test against the intercept-only model (with the same offset).
+  Calibration: records, observed and mean predicted survival per diameter class.
+AUC, Hosmer-Lemeshow and the calibration table need one 0/1 outcome per record with unit
+weight; for weighted or successes/trials data they are null and `unavailable` says why.";
 
 /// `fit growth` options.
 #[derive(Debug, Args)]
@@ -166,7 +229,7 @@ pub struct GrowthArgs {
 }
 
 fn data_options(
-    c: &CommonArgs,
+    c: &DataArgs,
     status: Option<&str>,
     dbh2: Option<&str>,
 ) -> Result<DataOptions, Error> {
@@ -196,12 +259,50 @@ fn data_options(
     })
 }
 
-fn years(c: &CommonArgs) -> Years {
+fn years(c: &DataArgs) -> Years {
     match (&c.years, &c.years_col) {
         (Some(n), _) => Years::Fixed(*n),
         (None, Some(col)) => Years::Column(col.clone()),
         (None, None) => Years::Default,
     }
+}
+
+/// The survival specification of the data and model options, fitting `predictors`.
+pub(crate) fn survival_spec(
+    data: &DataArgs,
+    m: &SurvivalModelArgs,
+    predictors: String,
+) -> Result<SurvivalSpec, Error> {
+    let response = match (&m.successes, &m.trials) {
+        (Some(s), Some(t)) => SurvivalResponse::Counts {
+            successes: s.clone(),
+            trials: t.clone(),
+        },
+        _ => SurvivalResponse::Status {
+            outcome: match m.outcome {
+                OutcomeArg::Alive => Outcome::Alive,
+                OutcomeArg::Dead => Outcome::Dead,
+            },
+        },
+    };
+    Ok(SurvivalSpec {
+        data: data_options(data, Some(&m.status), None)?,
+        predictors,
+        response,
+        weights: m.weights.clone(),
+        offset: m.offset.clone(),
+        years: years(data),
+        interval: match m.interval {
+            IntervalArg::Fixed => IntervalKind::Fixed,
+            IntervalArg::Annualized => IntervalKind::Annualized,
+            IntervalArg::Exposure => IntervalKind::Exposure,
+        },
+        link: match m.link {
+            LinkArg::Logit => Link::Logit,
+            LinkArg::Probit => Link::Probit,
+            LinkArg::Cloglog => Link::Cloglog,
+        },
+    })
 }
 
 fn write_model(path: &Option<PathBuf>, model: &ModelFile) -> Result<(), Error> {
@@ -218,49 +319,61 @@ fn print(format: Format, text: String, json: serde_json::Value) {
     }
 }
 
+fn survival(a: SurvivalArgs) -> Result<(), Error> {
+    let spec = survival_spec(&a.common.data, &a.model, a.common.predictors.clone())?;
+    let opts = FitOptions {
+        estimator: if a.firth {
+            Estimator::Firth
+        } else {
+            Estimator::MaximumLikelihood
+        },
+        cluster: a.cluster.clone(),
+        dbh_classes: a.dbh_classes.clone(),
+        curves: a.calibration_svg.is_some(),
+        control: control(&a.model),
+    };
+    if a.calibration_svg.is_some() {
+        check_svg_possible(&spec)?;
+    }
+    let fit = fit_survival_with(&spec, &opts)?;
+    let svg = match &a.calibration_svg {
+        Some(_) => Some(stemcast::fit::chart::calibration_svg(&fit)?),
+        None => None,
+    };
+    if let (Some(path), Some(svg)) = (&a.calibration_svg, svg) {
+        stemcast::atomic::write_atomic(path, svg.as_bytes())?;
+    }
+    write_model(&a.common.out, &fit.model)?;
+    let source = a.common.data.data.display().to_string();
+    print(
+        a.common.format,
+        summary::survival_text(&fit, &source),
+        summary::survival_json(&fit),
+    );
+    Ok(())
+}
+
+/// Refuse `--calibration-svg` before fitting when the chart cannot be drawn.
+fn check_svg_possible(spec: &SurvivalSpec) -> Result<(), Error> {
+    if !stemcast::fit::file_has_column(&spec.data.path, &spec.data.names.dbh) {
+        return Err(Error::Usage(format!(
+            "--calibration-svg: {} has no diameter column `{}` (name it with --dbh COL)",
+            spec.data.path.display(),
+            spec.data.names.dbh
+        )));
+    }
+    if matches!(spec.response, SurvivalResponse::Counts { .. }) || spec.weights.is_some() {
+        return Err(Error::Usage(
+            "--calibration-svg needs one 0/1 outcome per record with unit weight (not --successes/--trials or --weights)".into(),
+        ));
+    }
+    Ok(())
+}
+
 /// Run `fit survival` or `fit growth`.
 pub fn run(cmd: FitCommand) -> Result<(), Error> {
     match cmd {
-        FitCommand::Survival(a) => {
-            let response = match (&a.successes, &a.trials) {
-                (Some(s), Some(t)) => SurvivalResponse::Counts {
-                    successes: s.clone(),
-                    trials: t.clone(),
-                },
-                _ => SurvivalResponse::Status {
-                    outcome: match a.outcome {
-                        OutcomeArg::Alive => Outcome::Alive,
-                        OutcomeArg::Dead => Outcome::Dead,
-                    },
-                },
-            };
-            let spec = SurvivalSpec {
-                data: data_options(&a.common, Some(&a.status), None)?,
-                predictors: a.common.predictors.clone(),
-                response,
-                weights: a.weights.clone(),
-                offset: a.offset.clone(),
-                years: years(&a.common),
-                interval: match a.interval {
-                    IntervalArg::Fixed => IntervalKind::Fixed,
-                    IntervalArg::Annualized => IntervalKind::Annualized,
-                    IntervalArg::Exposure => IntervalKind::Exposure,
-                },
-                link: match a.link {
-                    LinkArg::Logit => Link::Logit,
-                    LinkArg::Probit => Link::Probit,
-                    LinkArg::Cloglog => Link::Cloglog,
-                },
-            };
-            let fit = fit_survival(&spec)?;
-            write_model(&a.common.out, &fit.model)?;
-            let source = a.common.data.display().to_string();
-            print(
-                a.common.format,
-                summary::survival_text(&fit, &source),
-                summary::survival_json(&fit),
-            );
-        }
+        FitCommand::Survival(a) => survival(a)?,
         FitCommand::Growth(a) => {
             let target = match &a.response_col {
                 Some(c) => GrowthTarget::Column(c.clone()),
@@ -270,14 +383,14 @@ pub fn run(cmd: FitCommand) -> Result<(), Error> {
                 }),
             };
             let spec = GrowthSpec {
-                data: data_options(&a.common, None, Some(&a.dbh2))?,
+                data: data_options(&a.common.data, None, Some(&a.dbh2))?,
                 predictors: a.common.predictors.clone(),
                 target,
-                years: years(&a.common),
+                years: years(&a.common.data),
             };
             let fit = fit_growth(&spec)?;
             write_model(&a.common.out, &fit.model)?;
-            let source = a.common.data.display().to_string();
+            let source = a.common.data.data.display().to_string();
             print(
                 a.common.format,
                 summary::growth_text(&fit, &source),

@@ -5,6 +5,7 @@ mod check;
 mod demo;
 mod fit;
 mod project;
+mod rank;
 
 use clap::{Parser, Subcommand};
 use stemcast::Error;
@@ -29,6 +30,8 @@ enum Command {
     /// Fit a survival or growth model from a remeasurement CSV.
     #[command(subcommand)]
     Fit(Box<fit::FitCommand>),
+    /// Compare candidate predictor sets of a survival model: AIC, weights, BIC, AUC, CV log-loss.
+    Rank(Box<rank::RankArgs>),
 }
 
 /// Run the parsed command.
@@ -38,5 +41,6 @@ pub fn run(cli: Cli) -> Result<(), Error> {
         Command::Check(a) => check::run(&a),
         Command::Project(a) => project::run(&a),
         Command::Fit(c) => fit::run(*c),
+        Command::Rank(a) => rank::run(*a),
     }
 }

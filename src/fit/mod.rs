@@ -2,9 +2,18 @@
 //! columns the terms need, load the records, build the design matrix, fit, and assemble the
 //! model file. Rendering the results as text or JSON lives in [`summary`].
 
+pub mod chart;
+pub mod curves;
+pub mod estimate;
+pub mod folds;
 pub mod growth;
+pub mod judge;
+pub mod load;
+pub mod rank;
+pub mod rank_render;
 pub mod summary;
 pub mod survival;
+pub mod survival_summary;
 
 use std::collections::BTreeMap;
 use std::path::PathBuf;
@@ -139,4 +148,23 @@ pub fn file_has_column(path: &std::path::Path, column: &str) -> bool {
     csv::Reader::from_path(path)
         .and_then(|mut r| r.headers().map(|h| h.iter().any(|c| c.trim() == column)))
         .unwrap_or(false)
+}
+
+/// Check diameter-class lower bounds: at least one, finite, strictly increasing.
+///
+/// # Errors
+/// [`crate::Error::Usage`] naming the offending bounds.
+pub fn check_classes(breaks: &[f64]) -> Result<(), crate::Error> {
+    if breaks.is_empty() || breaks.iter().any(|b| !b.is_finite()) {
+        return Err(crate::Error::Usage(
+            "--dbh-classes needs finite class bounds, e.g. --dbh-classes 0,5,10,20,40".into(),
+        ));
+    }
+    if let Some(w) = breaks.windows(2).find(|w| w[0] >= w[1]) {
+        return Err(crate::Error::Usage(format!(
+            "--dbh-classes must increase: {} is followed by {}",
+            w[0], w[1]
+        )));
+    }
+    Ok(())
 }

@@ -2,46 +2,16 @@
 //! the command-line layer prints them.
 
 use serde_json::{json, Value};
-use statrs::distribution::{ChiSquared, ContinuousCDF, Normal, StudentsT};
+use statrs::distribution::{ContinuousCDF, StudentsT};
 
 use super::growth::GrowthFit;
-use super::survival::SurvivalFit;
-use crate::model::file::{GrowthResponse, IntervalKind};
+pub use super::survival_summary::{survival_json, survival_text};
+use crate::model::file::GrowthResponse;
 
 /// The caution printed under every summary and report.
 pub const CAUTION: &str = "Caution: model estimates with stated uncertainty, valid only within the range of the fitting data. Defer to local regulations and to licensed professional foresters before acting on them.";
 
-/// Likelihood-ratio test of a fit against the intercept-only model.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct LrTest {
-    /// Null deviance − residual deviance.
-    pub statistic: f64,
-    /// df_null − df_residual.
-    pub df: usize,
-    /// Upper-tail χ² probability.
-    pub p_value: f64,
-}
-
-/// The likelihood-ratio test against the null model of a survival fit.
-///
-/// # Formula
-/// G = D₀ − D, df = df₀ − df, p = P(χ²_df > G).
-pub fn lr_test_vs_null(fit: &SurvivalFit) -> Option<LrTest> {
-    let df = fit.glm.df_null.checked_sub(fit.glm.df_residual)?;
-    let statistic = fit.glm.null_deviance - fit.glm.deviance;
-    let p_value = if df == 0 {
-        1.0
-    } else {
-        ChiSquared::new(df as f64).ok()?.sf(statistic.max(0.0))
-    };
-    Some(LrTest {
-        statistic,
-        df,
-        p_value,
-    })
-}
-
-fn fmt_p(p: f64) -> String {
+pub(crate) fn fmt_p(p: f64) -> String {
     if p < 1e-16 {
         "<1e-16".into()
     } else if p < 1e-4 {
@@ -51,7 +21,7 @@ fn fmt_p(p: f64) -> String {
     }
 }
 
-fn fmt_num(v: f64) -> String {
+pub(crate) fn fmt_num(v: f64) -> String {
     if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
         format!("{v:.4e}")
     } else {
@@ -59,7 +29,7 @@ fn fmt_num(v: f64) -> String {
     }
 }
 
-fn coefficient_table(
+pub(crate) fn coefficient_table(
     names: &[String],
     est: &[f64],
     se: &[f64],
@@ -94,99 +64,11 @@ fn coefficient_table(
     out
 }
 
-fn warnings_block(warnings: &[String]) -> String {
+pub(crate) fn warnings_block(warnings: &[String]) -> String {
     warnings
         .iter()
         .map(|w| format!("  warning: {w}\n"))
         .collect()
-}
-
-/// A readable text summary of a survival fit.
-pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
-    let g = &fit.glm;
-    let c = &fit.counts;
-    let z975 = Normal::standard().inverse_cdf(0.975);
-    let what = match (fit.interval, fit.period_years) {
-        (IntervalKind::Fixed, Some(p)) => format!("P({} over {p} years)", fit.outcome),
-        (IntervalKind::Fixed, None) => {
-            format!("P({}) over the remeasurement interval", fit.outcome)
-        }
-        (IntervalKind::Annualized, _) => format!("annual P({}), P_L = p^L", fit.outcome),
-        (IntervalKind::Exposure, _) => "P(dead in L years) = 1 − exp(−exp(η)·L)".into(),
-    };
-    let mut out = format!(
-        "stemcast survival fit — binomial GLM, {} link, modelling {what}\n",
-        g.link.name()
-    );
-    out.push_str(&format!(
-        "  {source}: {} rows read, {} records fitted; left out: {} cut/harvested (censored), {} ingrowth rows\n\n",
-        c.rows_read, g.n_obs, c.censored, c.ingrowth
-    ));
-    out.push_str(&coefficient_table(
-        &g.terms,
-        &g.coefficients,
-        &g.std_errors,
-        &g.z,
-        &g.p_values,
-        "z",
-        z975,
-    ));
-    out.push_str(&format!(
-        "\n  residual deviance {:.4} on {} df   null deviance {:.4} on {} df\n",
-        g.deviance, g.df_residual, g.null_deviance, g.df_null
-    ));
-    out.push_str(&format!(
-        "  log-likelihood {:.4}   AIC {:.4}   BIC {:.4}\n",
-        g.log_likelihood, g.aic, g.bic
-    ));
-    if let Some(lr) = lr_test_vs_null(fit) {
-        out.push_str(&format!(
-            "  likelihood ratio vs intercept-only: {:.4} on {} df, p {}\n",
-            lr.statistic,
-            lr.df,
-            if lr.p_value < 1e-16 {
-                "< 1e-16".to_string()
-            } else {
-                format!("= {}", fmt_p(lr.p_value))
-            }
-        ));
-    }
-    out.push_str(&format!(
-        "  IRLS {} in {} iterations; standard errors from the expected information\n",
-        if g.converged {
-            "converged"
-        } else {
-            "did NOT converge"
-        },
-        g.iterations
-    ));
-    out.push_str(&warnings_block(&fit.warnings));
-    out.push_str(&format!("\n{CAUTION}\n"));
-    out
-}
-
-/// The JSON object of design §2 for a survival fit.
-pub fn survival_json(fit: &SurvivalFit) -> Value {
-    let g = &fit.glm;
-    let coefficients: Vec<Value> = (0..g.terms.len())
-        .map(|i| {
-            json!({"term": g.terms[i], "estimate": g.coefficients[i], "std_error": g.std_errors[i],
-                   "z": g.z[i], "p_value": g.p_values[i]})
-        })
-        .collect();
-    let lr = lr_test_vs_null(fit)
-        .map(|l| json!({"statistic": l.statistic, "df": l.df, "p_value": l.p_value}));
-    json!({
-        "kind": "survival", "link": g.link.name(), "outcome": fit.outcome.as_str(),
-        "interval": fit.model.interval, "period_years": fit.period_years,
-        "records": g.n_obs, "censored": fit.counts.censored, "ingrowth_excluded": fit.counts.ingrowth,
-        "coefficients": coefficients, "covariance": g.covariance, "covariance_kind": "model",
-        "deviance": g.deviance, "null_deviance": g.null_deviance,
-        "df_residual": g.df_residual, "df_null": g.df_null,
-        "log_likelihood": g.log_likelihood, "aic": g.aic, "bic": g.bic,
-        "iterations": g.iterations, "converged": g.converged,
-        "lr_test_vs_null": lr, "warnings": fit.warnings,
-    })
 }
 
 /// A readable text summary of a growth fit.

@@ -1,19 +1,15 @@
 //! `fit survival`: from a remeasurement CSV to a fitted binomial GLM and its model file.
 
-use ndarray::Array1;
-
-use super::{common_interval, term_needs, DataOptions, Years};
-use crate::data::{
-    load_remeasurement, FrameColumn, Outcome, Purpose, RemeasureCounts, RemeasureSpec,
-    Remeasurement, Required,
-};
-use crate::model::design::{build_design, Design, DesignOptions};
+use super::estimate::{estimate, inference, Estimate, Estimator, Inference};
+use super::judge::{diagnose, Diagnostics};
+use super::load::{load_survival, LoadOptions, SurvivalData};
+use super::{DataOptions, Years};
+use crate::data::{Outcome, RemeasureCounts};
 use crate::model::file::{
-    CoefficientEntry, CovarianceEntry, CovarianceKind, FitInfo, IntervalKind, ModelFile, ModelKind,
+    CoefficientEntry, CovarianceEntry, FitInfo, IntervalKind, ModelFile, ModelKind,
 };
-use crate::model::glm::{fit_glm, GlmData, GlmFit, GlmOptions};
+use crate::model::glm::{FitControl, GlmFit};
 use crate::model::link::Link;
-use crate::model::ModelError;
 use crate::Error;
 
 /// The response of a survival fit.
@@ -54,11 +50,39 @@ pub struct SurvivalSpec {
     pub link: Link,
 }
 
+/// Options of `fit survival` beyond the model specification.
+#[derive(Debug, Clone, Default)]
+pub struct FitOptions {
+    /// Maximum likelihood or Firth's penalised likelihood (`--firth`).
+    pub estimator: Estimator,
+    /// Cluster-robust covariance by this column (`--cluster`).
+    pub cluster: Option<String>,
+    /// Diameter-class lower bounds of the calibration table (`--dbh-classes`).
+    pub dbh_classes: Option<Vec<f64>>,
+    /// Compute the fitted survival curves against diameter (`--calibration-svg`).
+    pub curves: bool,
+    /// Iteration limit of the fit (`--max-iterations`, R `glm.control(maxit)`).
+    pub control: FitControl,
+}
+
 /// A fitted survival model with everything the summary and the model file need.
 #[derive(Debug, Clone)]
 pub struct SurvivalFit {
-    /// The GLM result.
+    /// Estimates and fit statistics, with the model-based covariance. Firth and annualised fits
+    /// are carried in this shape too (see `estimator` and `interval`).
     pub glm: GlmFit,
+    /// How the coefficients were estimated.
+    pub estimator: Estimator,
+    /// The covariance the summary shows (model-based or cluster-robust) and its Wald table.
+    pub inference: Inference,
+    /// ℓ + ½ ln det(XᵀWX) at the estimate of a Firth fit.
+    pub penalized_log_likelihood: Option<f64>,
+    /// Penalised-likelihood-ratio p-values of a Firth fit, in term order.
+    pub plr_p_values: Option<Vec<f64>>,
+    /// AUC, Hosmer–Lemeshow, LR test against the null model, calibration by diameter class.
+    pub diagnostics: Diagnostics,
+    /// Fitted survival against diameter, when asked for.
+    pub curves: Option<super::curves::SurvivalCurves>,
     /// What the probability is about.
     pub outcome: Outcome,
     /// How the interval entered.
@@ -73,247 +97,134 @@ pub struct SurvivalFit {
     pub model: ModelFile,
 }
 
-/// Fit the survival model described by `spec`.
+/// Fit the survival model described by `spec` by maximum likelihood, model-based covariance.
 ///
 /// # Errors
 /// Bad data or terms (exit code 2), separation or rank deficiency (2), non-convergence (1).
 pub fn fit_survival(spec: &SurvivalSpec) -> Result<SurvivalFit, Error> {
-    let needs = term_needs(&spec.predictors, &spec.data.use_columns)?;
-    let mut required = needs.required.clone();
-    let purpose = match &spec.response {
-        SurvivalResponse::Status { .. } => Purpose::Survival,
-        SurvivalResponse::Counts { successes, trials } => {
-            required.push(Required::new(successes, "--successes"));
-            required.push(Required::new(trials, "--trials"));
-            Purpose::Counts
+    fit_survival_with(spec, &FitOptions::default())
+}
+
+/// Check option combinations that have no model before anything is read.
+///
+/// # Errors
+/// [`Error::Usage`] naming what to use instead.
+pub fn check_options(spec: &SurvivalSpec, opts: &FitOptions) -> Result<(), Error> {
+    super::load::check_interval(spec)?;
+    if opts.estimator == Estimator::Firth {
+        if spec.link != Link::Logit {
+            return Err(Error::Usage(format!(
+                "--firth is defined for the logit link only (Firth 1993); drop --link {} or --firth",
+                spec.link.name()
+            )));
         }
-    };
-    for (col, why) in [(&spec.weights, "--weights"), (&spec.offset, "--offset")] {
-        if let Some(c) = col {
-            required.push(Required::new(c, why));
+        if spec.interval == IntervalKind::Annualized {
+            return Err(Error::Usage(
+                "--firth cannot be combined with --interval annualized; use one of them".into(),
+            ));
         }
     }
-    let years_col = match &spec.years {
-        Years::Column(c) => Some(c.clone()),
-        _ => None,
-    };
-    let default_years = (spec.years == Years::Default
-        && super::file_has_column(&spec.data.path, &spec.data.names.years))
-    .then(|| spec.data.names.years.clone());
-    if let Some(c) = years_col.as_ref().or(default_years.as_ref()) {
-        required.push(Required::new(c, "the remeasurement interval"));
+    if opts.cluster.is_some()
+        && (opts.estimator == Estimator::Firth || spec.interval == IntervalKind::Annualized)
+    {
+        return Err(Error::Usage(
+            "--cluster gives a cluster-robust covariance of the ordinary GLM; it cannot be combined with --firth or --interval annualized".into(),
+        ));
     }
-    if spec.interval != IntervalKind::Fixed && spec.years == Years::Default {
-        return Err(Error::Usage(format!(
-            "--interval {} needs the interval of each record: give --years-col COL",
-            interval_name(spec.interval)
-        )));
+    if let Some(b) = &opts.dbh_classes {
+        super::check_classes(b)?;
+        if !super::file_has_column(&spec.data.path, &spec.data.names.dbh) {
+            return Err(Error::Usage(format!(
+                "--dbh-classes: {} has no diameter column `{}` (name it with --dbh COL)",
+                spec.data.path.display(),
+                spec.data.names.dbh
+            )));
+        }
     }
-    if spec.interval == IntervalKind::Exposure {
-        check_exposure(spec)?;
-    }
-    let outcome = match &spec.response {
-        SurvivalResponse::Status { outcome } => *outcome,
-        SurvivalResponse::Counts { .. } => Outcome::Alive,
-    };
-    let load = RemeasureSpec {
-        names: spec.data.names.clone(),
-        purpose,
-        one_means: outcome,
-        required,
-        derived: needs.derived.clone(),
-        use_columns: spec.data.use_columns.clone(),
-        categorical: spec.data.categorical.clone(),
-        units: spec.data.units,
-    };
-    let data = load_remeasurement(&spec.data.path, &load)?;
-    let design = build_design(
-        &needs.terms,
-        &data.frame,
-        &DesignOptions {
-            intercept: spec.data.intercept,
-            references: spec.data.references.clone(),
+    Ok(())
+}
+
+/// Fit the survival model described by `spec` with the estimator, covariance and diagnostics
+/// options of `opts`.
+///
+/// # Errors
+/// Bad data, terms or option combinations (exit code 2), separation or rank deficiency (2),
+/// non-convergence (1).
+pub fn fit_survival_with(spec: &SurvivalSpec, opts: &FitOptions) -> Result<SurvivalFit, Error> {
+    check_options(spec, opts)?;
+    let data = load_survival(
+        spec,
+        &LoadOptions {
+            predictor_sets: vec![spec.predictors.clone()],
+            cluster: opts.cluster.clone(),
+            ..LoadOptions::default()
         },
     )?;
+    fit_loaded(spec, opts, &data, &spec.predictors)
+}
+
+/// Fit `predictors` on records already loaded (the fit stage of [`fit_survival_with`]).
+///
+/// # Errors
+/// As [`fit_survival_with`].
+pub fn fit_loaded(
+    spec: &SurvivalSpec,
+    opts: &FitOptions,
+    data: &SurvivalData,
+    predictors: &str,
+) -> Result<SurvivalFit, Error> {
+    let est = estimate(spec, data, predictors, opts.estimator, &opts.control)?;
+    let inference = inference(&est, data, data.clusters.as_deref())?;
+    let diagnostics = diagnose(
+        data,
+        &est,
+        opts.estimator,
+        &spec.data.names.dbh,
+        opts.dbh_classes.as_deref(),
+        spec.data.units,
+    );
+    let curves = if opts.curves {
+        Some(super::curves::survival_curves(spec, data, &est)?)
+    } else {
+        None
+    };
     let mut warnings = data.warnings.clone();
-    let (period_years, years) = resolve_years(spec, &data)?;
-    let y = response(spec, &data)?;
-    let num = |c: &Option<String>| -> Result<Option<Array1<f64>>, Error> {
-        c.as_ref()
-            .map(|c| numeric(&data, c).map(Array1::from))
-            .transpose()
-    };
-    let trials = match &spec.response {
-        SurvivalResponse::Counts { trials, .. } => Some(Array1::from(numeric(&data, trials)?)),
-        SurvivalResponse::Status { .. } => None,
-    };
-    let weights = num(&spec.weights)?;
-    let mut offset = num(&spec.offset)?;
-    if spec.interval == IntervalKind::Exposure {
-        let ln_years: Array1<f64> = years.iter().map(|l| l.ln()).collect();
-        offset = Some(match offset {
-            Some(o) => o + &ln_years,
-            None => ln_years,
-        });
-    }
-    let glm = fit_glm(
-        &GlmData {
-            x: design.x.view(),
-            terms: &design.names,
-            y: y.view(),
-            trials: trials.as_ref().map(|t| t.view()),
-            weights: weights.as_ref().map(|w| w.view()),
-            offset: offset.as_ref().map(|o| o.view()),
-        },
-        &GlmOptions { link: spec.link },
-    )?;
-    if !glm.converged {
-        return Err(ModelError::NotConverged {
-            iterations: glm.iterations,
-            deviance: glm.deviance,
-            hint: "check for extreme predictor values or try another link".into(),
-        }
-        .into());
-    }
-    if period_years.is_none() {
+    if data.period_years.is_none() {
         warnings.push("no remeasurement interval was given (--years N or a `years` column), so the model file has no period_years and cannot drive a projection".into());
     }
-    let model = model_file(spec, &glm, &design, &data, outcome, period_years);
+    warnings.extend(est.glm.warnings.iter().cloned());
+    let model = model_file(spec, &est, &inference, data, predictors);
     Ok(SurvivalFit {
-        glm,
-        outcome,
+        glm: est.glm,
+        estimator: opts.estimator,
+        inference,
+        penalized_log_likelihood: est.penalized_log_likelihood,
+        plr_p_values: est.plr_p_values,
+        diagnostics,
+        curves,
+        outcome: data.outcome,
         interval: spec.interval,
-        period_years,
-        counts: data.counts,
+        period_years: data.period_years,
+        counts: data.records.counts,
         warnings,
         model,
     })
 }
 
-fn interval_name(k: IntervalKind) -> &'static str {
-    match k {
-        IntervalKind::Fixed => "fixed",
-        IntervalKind::Annualized => "annualized",
-        IntervalKind::Exposure => "exposure",
-    }
-}
-
-fn check_exposure(spec: &SurvivalSpec) -> Result<(), Error> {
-    let dead = matches!(
-        spec.response,
-        SurvivalResponse::Status {
-            outcome: Outcome::Dead
-        }
-    );
-    if spec.link != Link::Cloglog || !dead {
-        return Err(Error::Usage(
-            "--interval exposure models the probability of death with a cloglog link and offset ln(years): use it with --link cloglog --outcome dead".into(),
-        ));
-    }
-    Ok(())
-}
-
-/// The period of the model and the per-record intervals (empty when unknown).
-fn resolve_years(
-    spec: &SurvivalSpec,
-    data: &Remeasurement,
-) -> Result<(Option<f64>, Vec<f64>), Error> {
-    let column = match &spec.years {
-        Years::Fixed(n) => {
-            if !(*n > 0.0 && n.is_finite()) {
-                return Err(Error::Usage(format!(
-                    "--years {n}: must be a positive number"
-                )));
-            }
-            return Ok((Some(*n), vec![*n; data.frame.len()]));
-        }
-        Years::Column(c) => c.clone(),
-        Years::Default => {
-            let c = spec.data.names.years.clone();
-            if data.frame.column(&c).is_none() {
-                return Ok((None, Vec::new()));
-            }
-            c
-        }
-    };
-    let years = numeric(data, &column)?;
-    if let Some(i) = years.iter().position(|v| v.is_nan() || *v <= 0.0) {
-        return Err(crate::data::DataError::Cell {
-            file: data.frame.source.clone(),
-            line: data.frame.lines.get(i).copied().unwrap_or(0),
-            column: column.clone(),
-            message: format!("{} is not a positive number of years", years[i]),
-        }
-        .into());
-    }
-    let period = match spec.interval {
-        IntervalKind::Fixed => common_interval(&years, &data.frame.source)?,
-        IntervalKind::Annualized | IntervalKind::Exposure => 1.0,
-    };
-    Ok((Some(period), years))
-}
-
-/// A numeric column of the loaded records, every value present.
-fn numeric(data: &Remeasurement, column: &str) -> Result<Vec<f64>, Error> {
-    let frame = &data.frame;
-    match frame.column(column) {
-        Some(FrameColumn::Numeric(v)) => {
-            if let Some(i) = v.iter().position(|x| !x.is_finite()) {
-                return Err(crate::data::DataError::Cell {
-                    file: frame.source.clone(),
-                    line: frame.lines.get(i).copied().unwrap_or(0),
-                    column: column.to_string(),
-                    message: "empty or not a finite number".into(),
-                }
-                .into());
-            }
-            Ok(v.clone())
-        }
-        Some(FrameColumn::Text { first_text, .. }) => {
-            let (line, value) = first_text.clone().unwrap_or((0, String::new()));
-            Err(crate::data::DataError::Cell {
-                file: frame.source.clone(),
-                line,
-                column: column.to_string(),
-                message: format!("\"{value}\" is not a number"),
-            }
-            .into())
-        }
-        None => Err(Error::Usage(format!(
-            "{}: column `{column}` was not loaded",
-            frame.source
-        ))),
-    }
-}
-
-fn response(spec: &SurvivalSpec, data: &Remeasurement) -> Result<Array1<f64>, Error> {
-    match &spec.response {
-        SurvivalResponse::Status { outcome } => {
-            let alive = data.alive.as_ref().ok_or_else(|| {
-                Error::Usage(format!("{}: no status column was read", data.frame.source))
-            })?;
-            Ok(alive
-                .iter()
-                .map(|a| f64::from(u8::from(*a == (*outcome == Outcome::Alive))))
-                .collect())
-        }
-        SurvivalResponse::Counts { successes, .. } => Ok(Array1::from(numeric(data, successes)?)),
-    }
-}
-
 fn model_file(
     spec: &SurvivalSpec,
-    glm: &GlmFit,
-    design: &Design,
-    data: &Remeasurement,
-    outcome: Outcome,
-    period_years: Option<f64>,
+    est: &Estimate,
+    inf: &Inference,
+    data: &SurvivalData,
+    predictors: &str,
 ) -> ModelFile {
+    let glm = &est.glm;
+    let design = &est.design;
     let coefficients = glm
         .terms
         .iter()
         .zip(&glm.coefficients)
-        .zip(&glm.std_errors)
+        .zip(&inf.std_errors)
         .map(|((t, b), s)| CoefficientEntry {
             term: t.clone(),
             estimate: *b,
@@ -323,26 +234,26 @@ fn model_file(
     ModelFile {
         kind: ModelKind::Survival,
         link: Some(glm.link.name().to_string()),
-        outcome: Some(outcome),
+        outcome: Some(data.outcome),
         interval: Some(spec.interval),
-        period_years,
+        period_years: data.period_years,
         units: Some(spec.data.units.as_str().to_string()),
         response: None,
         residual_sd: None,
         coefficients,
         categorical: design.categorical.clone(),
         covariance: Some(CovarianceEntry {
-            kind: CovarianceKind::Model,
+            kind: inf.kind,
             terms: glm.terms.clone(),
-            matrix: glm.covariance.clone(),
+            matrix: inf.covariance.clone(),
         }),
         fit: Some(FitInfo {
             records: Some(glm.n_obs as u64),
             source: Some(spec.data.path.display().to_string()),
-            source_sha256: Some(data.sha256.clone()),
-            predictors: Some(spec.predictors.clone()),
+            source_sha256: Some(data.records.sha256.clone()),
+            predictors: Some(predictors.to_string()),
             deviance: Some(glm.deviance),
-            null_deviance: Some(glm.null_deviance),
+            null_deviance: Some(glm.null_deviance).filter(|d| d.is_finite()),
             log_likelihood: Some(glm.log_likelihood),
             aic: Some(glm.aic),
             bic: Some(glm.bic),
