@@ -4,6 +4,7 @@
 mod check;
 mod demo;
 mod fit;
+mod fit_args;
 mod project;
 mod rank;
 
