@@ -242,3 +242,28 @@ fn idle_thinning_gets_a_harvest_row_of_zeros_and_a_warning() {
         r.warnings
     );
 }
+
+#[test]
+fn diameter_ties_leave_in_tree_id_order() {
+    // src/project/actions.rs: ids compare as whole numbers when all are, else in byte order.
+    // Three records of 10 cm at 100 stems/ha, thinned from below to 150 by the expected
+    // driver: the first id loses all 100 stems, the second 50 (derived).
+    for (ids, want) in [
+        (["2", "10", "1"], [50.0, 100.0, 0.0]),
+        (["t2", "t10", "t1"], [100.0, 50.0, 0.0]),
+    ] {
+        let trees = format!(
+            "tree,dbh,expansion\n{},10,100\n{},10,100\n{},10,100\n",
+            ids[0], ids[1], ids[2]
+        );
+        let r = run(&trees, "from = \"below\", to_stems_per_ha = 150", 1, true);
+        for (id, w) in ids.iter().zip(want) {
+            let row = r
+                .trees
+                .iter()
+                .find(|t| t.year == 0.0 && t.tree == *id)
+                .unwrap();
+            assert_eq!(row.stems_per_ha, w, "tree {id}");
+        }
+    }
+}

@@ -38,6 +38,13 @@ pub struct ScenarioFile {
 }
 
 /// One `[[actions]]` entry: a year and exactly one of `thin`, `set` or `density_limit`.
+///
+/// `year` is 0 or a step boundary (a whole multiple of `step_years`) within the horizon. An
+/// action applies at the end of the sub-step that ends at its year (year 0: before the first
+/// sub-step), after mortality and growth; actions of one year apply in file order, then the
+/// density limit in force. A `density_limit` stays in force from its year to the horizon (a
+/// later one replaces it) and is applied at the end of every sub-step. Summaries of a year
+/// are taken after its actions.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ActionEntry {
