@@ -8,6 +8,7 @@ mod binomial;
 mod drivers;
 pub mod evaluator;
 mod fastmath;
+mod harvest;
 mod params;
 mod result;
 mod rng;
@@ -20,7 +21,8 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use rayon::prelude::*;
 
 pub use result::{
-    ClassRow, Driver, Metric, ProjectionResult, Settings, Summary, TreeRow, YearSummary,
+    ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,
+    TreeRow, YearSummary,
 };
 pub use summary::{percentile_type7, summarise};
 
@@ -131,6 +133,7 @@ pub fn run_scenario_with_progress(
         .collect();
     let (summaries, classes) = summary::reduce(&traces, &years, &ages, CLASS_WIDTH_CM, !o.expected);
     let warnings = warnings(s, &traces, &summaries);
+    let harvest = engine.harvest.rows(&traces, !o.expected);
     let u = s.uncertainty;
     Ok(ProjectionResult {
         scenario: s.name.clone(),
@@ -157,6 +160,7 @@ pub fn run_scenario_with_progress(
         years: summaries,
         classes,
         trees: tree_rows,
+        harvest,
         inputs: s.inputs.clone(),
         warnings,
     })

@@ -11,11 +11,11 @@ use std::path::{Path, PathBuf};
 
 pub use atomic::write_files_atomically;
 pub use charts::{stems_chart_svg, survival_chart_svg};
-pub use tables::{classes_csv, run_json, summary_csv, trees_csv};
+pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
 
 use crate::project::{Driver, ProjectionResult};
 
-/// Render every output file of a projection: `summary.csv`, `classes.csv`, `run.json`,
+/// Render every output file of a projection: `summary.csv`, `classes.csv`, `harvest.csv`, `run.json`,
 /// `survival.svg`, `stems.svg` and, for the expected driver, `trees.csv`.
 ///
 /// # Errors
@@ -24,6 +24,7 @@ pub fn render_projection(r: &ProjectionResult) -> Result<Vec<(String, Vec<u8>)>,
     let mut files = vec![
         ("summary.csv".to_string(), summary_csv(r)),
         ("classes.csv".to_string(), classes_csv(r)),
+        ("harvest.csv".to_string(), harvest_csv(r)),
         ("run.json".to_string(), run_json(r)),
         (
             "survival.svg".to_string(),
