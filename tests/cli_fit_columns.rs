@@ -131,3 +131,50 @@ fn growth_response_accepts_the_model_file_spelling() {
         assert_eq!(out.status.code(), Some(0), "{r}: {}", stderr(&out));
     }
 }
+
+#[test]
+fn bad_counts_and_weights_name_file_line_and_column() {
+    let sb = Sandbox::new();
+    sb.write("over.csv", "dose,k,n\n1,2,10\n2,12,10\n3,7,10\n");
+    sb.write("frac.csv", "dose,k,n\n1,2,10\n2,2.5,10\n3,7,10\n");
+    sb.write("neg.csv", "dose,alive,w\n1,1,1\n2,0,-1\n3,1,2\n4,0,1\n");
+    for (file, args, needle) in [
+        (
+            "over.csv",
+            vec!["--successes", "k", "--trials", "n"],
+            "over.csv: line 3, column \"k\"",
+        ),
+        (
+            "frac.csv",
+            vec!["--successes", "k", "--trials", "n"],
+            "frac.csv: line 3, column \"k\"",
+        ),
+        (
+            "neg.csv",
+            vec!["--weights", "w"],
+            "neg.csv: line 3, column \"w\"",
+        ),
+    ] {
+        let mut a = vec!["fit", "survival", file, "-p", "dose"];
+        a.extend(args);
+        let out = sb.run(&a);
+        assert_eq!(out.status.code(), Some(2), "{file}");
+        assert!(stderr(&out).contains(needle), "{file}: {}", stderr(&out));
+    }
+}
+
+#[test]
+fn a_numeric_column_with_one_text_cell_is_refused_unless_declared_categorical() {
+    let sb = Sandbox::new();
+    sb.write(
+        "si.csv",
+        "si,alive\n12.5,1\n\"15,5\",0\n23.0,1\n9.5,0\n17.2,1\n11.0,0\n",
+    );
+    let out = sb.run(&["fit", "survival", "si.csv", "-p", "si"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(
+        stderr(&out).contains("si.csv, line 3, holds \"15,5\""),
+        "{}",
+        stderr(&out)
+    );
+}

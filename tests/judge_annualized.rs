@@ -69,8 +69,20 @@ fn annualized_needs_the_interval_column_logit_and_alive() {
     let sb = Sandbox::new();
     let data = sb.write("trees.csv", &two_groups());
     let p = data.to_str().unwrap();
+    // Without --years-col the default `years` column is used; a file without one is refused.
+    let no_years = sb.write("no_years.csv", &two_groups().replacen("years", "span", 1));
+    let out = sb.run(&[
+        "fit",
+        "survival",
+        no_years.to_str().unwrap(),
+        "-p",
+        "grp",
+        "--interval",
+        "annualized",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("--years-col"), "{}", stderr(&out));
     for (extra, needle) in [
-        (vec!["--interval", "annualized"], "--years-col"),
         (
             vec![
                 "--interval",

@@ -34,6 +34,7 @@ fn opts() -> DesignOptions {
     DesignOptions {
         intercept: true,
         references: BTreeMap::new(),
+        declared_categorical: Vec::new(),
     }
 }
 

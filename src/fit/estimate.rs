@@ -81,6 +81,7 @@ pub fn design_for(
         &DesignOptions {
             intercept: spec.data.intercept,
             references: spec.data.references.clone(),
+            declared_categorical: spec.data.categorical.clone(),
         },
     )?)
 }

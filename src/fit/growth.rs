@@ -174,8 +174,10 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
         &DesignOptions {
             intercept: spec.data.intercept,
             references: spec.data.references.clone(),
+            declared_categorical: spec.data.categorical.clone(),
         },
     )?;
+    warnings.extend(design.warnings.iter().cloned());
     let ols = fit_ols(
         design.x.view(),
         Array1::from(y).view(),

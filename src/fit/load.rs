@@ -179,6 +179,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         SurvivalResponse::Status { .. } => None,
     };
     let weights = num(&spec.weights)?;
+    check_counts(spec, &records, &y, trials.as_ref(), weights.as_ref())?;
     let mut offset = num(&spec.offset)?;
     if spec.interval == IntervalKind::Exposure {
         let ln_years: Array1<f64> = years.iter().map(|l| l.ln()).collect();
@@ -211,6 +212,56 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         stands,
         warnings,
     })
+}
+
+/// Grouped counts must be whole numbers with 0 ≤ successes ≤ trials, and prior weights must
+/// be non-negative; the error names the file, line and column of the first bad record.
+fn check_counts(
+    spec: &SurvivalSpec,
+    records: &Remeasurement,
+    y: &Array1<f64>,
+    trials: Option<&Array1<f64>>,
+    weights: Option<&Array1<f64>>,
+) -> Result<(), Error> {
+    if let (
+        SurvivalResponse::Counts {
+            successes,
+            trials: tc,
+        },
+        Some(t),
+    ) = (&spec.response, trials)
+    {
+        for i in 0..y.len() {
+            let (k, n) = (y[i], t[i]);
+            if n < 0.0 || n.fract() != 0.0 {
+                return Err(cell(
+                    records,
+                    i,
+                    tc,
+                    format!("{n} is not a whole number of trials"),
+                ));
+            }
+            if k < 0.0 || k.fract() != 0.0 || k > n {
+                return Err(cell(
+                    records,
+                    i,
+                    successes,
+                    format!("{k} successes out of {n} trials is not a whole number between 0 and the trials"),
+                ));
+            }
+        }
+    }
+    if let (Some(c), Some(w)) = (&spec.weights, weights) {
+        if let Some(i) = w.iter().position(|v| *v < 0.0) {
+            return Err(cell(
+                records,
+                i,
+                c,
+                format!("{} is not a non-negative weight", w[i]),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// The period of the model and the per-record intervals (empty when unknown).

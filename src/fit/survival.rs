@@ -193,6 +193,7 @@ pub fn fit_loaded(
         warnings.push("no remeasurement interval was given (--years N or a `years` column), so the model file has no period_years and cannot drive a projection".into());
     }
     warnings.extend(est.glm.warnings.iter().cloned());
+    warnings.extend(est.design.warnings.iter().cloned());
     let model = model_file(spec, &est, &inference, data, predictors, opts.estimator);
     Ok(SurvivalFit {
         glm: est.glm,

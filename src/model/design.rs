@@ -28,6 +28,8 @@ pub struct DesignOptions {
     /// Reference level per categorical variable (`--reference COL=LEVEL`); otherwise the first
     /// level in byte order.
     pub references: BTreeMap<String, String>,
+    /// Columns the user declared categorical (`--categorical`): used as labels without question.
+    pub declared_categorical: Vec<String>,
 }
 
 /// The n×p design matrix and what its columns mean.
@@ -45,6 +47,8 @@ pub struct Design {
     pub categorical: BTreeMap<String, CategoricalLevels>,
     /// Range [min, max] of every numeric variable used, over the records.
     pub ranges: BTreeMap<String, [f64; 2]>,
+    /// Things the user should know (e.g. a mostly numeric column read as categorical).
+    pub warnings: Vec<String>,
 }
 
 /// Build the design matrix of `terms` over the records of `frame`.
@@ -81,6 +85,21 @@ pub fn build_design(
     }
     let mut categorical = BTreeMap::new();
     let mut expanded: Vec<Term> = Vec::new();
+    let warnings = Vec::new();
+    for term in terms {
+        for f in &term.factors {
+            let v = f.var();
+            if opts.declared_categorical.iter().any(|c| c == v) {
+                continue;
+            }
+            if let Some(message) = mixed_column(v, frame) {
+                return Err(ModelError::Term {
+                    term: term.label(),
+                    message,
+                });
+            }
+        }
+    }
     for term in terms {
         for t in expand(term, frame, opts, &mut categorical)? {
             if expanded.iter().any(|e| e.label() == t.label()) {
@@ -131,6 +150,28 @@ pub fn build_design(
         intercept: opts.intercept,
         categorical,
         ranges,
+        warnings,
+    })
+}
+
+/// A text column whose values are mostly numbers is almost always a numeric column with a
+/// malformed cell (`12,5`), which would otherwise silently turn a numeric predictor into a
+/// factor; it is refused unless declared categorical.
+fn mixed_column(var: &str, frame: &Frame) -> Option<String> {
+    let Some(FrameColumn::Text {
+        levels,
+        first_text: Some((line, value)),
+        ..
+    }) = frame.column(var)
+    else {
+        return None;
+    };
+    let numeric = levels.iter().filter(|l| l.parse::<f64>().is_ok()).count();
+    (2 * numeric > levels.len()).then(|| {
+        format!(
+            "`{var}` mixes numbers and text: {}, line {line}, holds \"{value}\", which is not a number; fix that cell, or declare --categorical {var} to use the values as labels",
+            frame.source
+        )
     })
 }
 
