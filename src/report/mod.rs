@@ -8,6 +8,7 @@ mod charts_classes;
 mod compare;
 pub mod html;
 mod page;
+mod page_models;
 mod tables;
 
 use std::path::{Path, PathBuf};

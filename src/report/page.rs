@@ -1,13 +1,14 @@
 //! Sections of `report.html` shared by `project` (one scenario) and `compare` (several): the
 //! scenarios' settings, the model summaries, the per-step tables and the warnings.
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 pub(crate) use super::charts::YEARS_LABEL as YEARS;
 use super::charts::{metrics_chart_svg, survival_chart_svg};
 use super::charts_classes::{distribution_chart_svg, distribution_years};
 use super::html::{render, Block, Page, Section};
-use crate::model::stored::{Model, ModelCommon};
+pub(crate) use super::page_models::models_section;
+use crate::model::stored::Model;
 use crate::project::{Metric, ProjectionResult, Summary};
 use crate::scenario::{AttributeValues, Scenario, TreeList};
 
@@ -73,7 +74,8 @@ pub(crate) fn models_of(s: &Scenario) -> Vec<(PathBuf, Model)> {
     ]
 }
 
-/// A number with about four significant digits, no exponent for everyday magnitudes.
+/// A number with about four significant digits and no trailing zeros, no exponent for
+/// everyday magnitudes.
 pub(crate) fn num(v: f64) -> String {
     if !v.is_finite() {
         return String::new();
@@ -85,10 +87,15 @@ pub(crate) fn num(v: f64) -> String {
         (3 - a.log10().floor() as i32).clamp(0, 6) as usize
     };
     let s = format!("{v:.decimals$}");
-    if s.starts_with('-') && s[1..].chars().all(|c| c == '0' || c == '.') {
-        s[1..].to_string()
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.')
     } else {
-        s
+        &s
+    };
+    if s == "-0" {
+        "0".into()
+    } else {
+        s.into()
     }
 }
 
@@ -199,117 +206,14 @@ pub(crate) fn settings_section(results: &[ProjectionResult], facts: &[Option<Fac
     }
 }
 
-/// One block pair per distinct model file: what it is and its coefficients.
-pub(crate) fn models_section(models: &[(PathBuf, Model)]) -> Section {
-    let mut blocks = Vec::new();
-    let mut seen: Vec<&Path> = Vec::new();
-    for (path, model) in models {
-        if seen.contains(&path.as_path()) {
-            continue;
-        }
-        seen.push(path);
-        let (what, common) = match model {
-            Model::Survival(m) => (
-                format!(
-                    "Survival model {}: {} link, outcome {}, interval {}",
-                    path.display(),
-                    m.link.name(),
-                    serde_name(&m.outcome),
-                    serde_name(&m.interval)
-                ),
-                &m.common,
-            ),
-            Model::Growth(m) => (
-                format!(
-                    "Growth model {}: response {}, residual SD {}",
-                    path.display(),
-                    serde_name(&m.response),
-                    num(m.residual_sd)
-                ),
-                &m.common,
-            ),
-        };
-        blocks.push(Block::Paragraph(format!("{what}{}", fit_facts(common))));
-        blocks.push(coefficients(common));
-    }
-    Section {
-        heading: "Models".into(),
-        blocks,
-    }
-}
-
-fn serde_name<T: serde::Serialize>(v: &T) -> String {
-    match serde_json::to_value(v) {
-        Ok(serde_json::Value::String(s)) => s,
-        _ => "?".into(),
-    }
-}
-
-fn fit_facts(c: &ModelCommon) -> String {
-    let mut facts = vec![
-        c.period_years
-            .map_or("no period".into(), |p| format!("period {p} years")),
-        format!("{} units", serde_name(&c.units)),
-    ];
-    if let Some(f) = &c.fit {
-        let opt = |name: &str, v: Option<f64>| v.map(|v| format!("{name} {}", num(v)));
-        facts.extend(f.records.map(|n| format!("{n} records")));
-        facts.extend(f.source.as_ref().map(|s| format!("data {s}")));
-        facts.extend(opt("deviance", f.deviance));
-        facts.extend(opt("null deviance", f.null_deviance));
-        facts.extend(opt("log-likelihood", f.log_likelihood));
-        facts.extend(opt("AIC", f.aic));
-        facts.extend(opt("BIC", f.bic));
-        facts.extend(opt("R²", f.r_squared));
-        facts.extend(f.iterations.map(|n| format!("{n} iterations")));
-        facts.extend(
-            f.converged
-                .map(|c| (if c { "converged" } else { "NOT converged" }).into()),
-        );
-    } else {
-        facts.push("no fit record (typed by hand)".into());
-    }
-    format!("; {}.", facts.join(", "))
-}
-
-fn coefficients(c: &ModelCommon) -> Block {
-    let names = c.predictor.names();
-    let est = c.predictor.coefficients();
-    let se: Vec<Option<f64>> = match (&c.predictor.std_errors, &c.covariance) {
-        (Some(se), _) => se.iter().map(|&v| Some(v)).collect(),
-        (None, Some(v)) => (0..names.len())
-            .map(|i| v.matrix.get(i).and_then(|r| r.get(i)).map(|d| d.sqrt()))
-            .collect(),
-        _ => vec![None; names.len()],
-    };
-    let rows = names
-        .iter()
-        .zip(&est)
-        .enumerate()
-        .map(|(i, (n, &b))| {
-            let s = se.get(i).copied().flatten();
-            vec![
-                n.clone(),
-                format!("{b:.6}"),
-                s.map_or("–".into(), |s| format!("{s:.6}")),
-                s.filter(|&s| s > 0.0)
-                    .map_or("–".into(), |s| format!("{:.2}", b / s)),
-            ]
-        })
-        .collect();
-    Block::Table {
-        header: ["term", "estimate", "std. error", "estimate / SE"]
-            .iter()
-            .map(|h| h.to_string())
-            .collect(),
-        rows,
-    }
-}
-
 /// The caution without its own "Caution:" lead (the page adds one).
 pub(crate) fn caution() -> String {
     let c = crate::fit::summary::CAUTION;
-    c.strip_prefix("Caution: ").unwrap_or(c).to_string()
+    let rest = c.strip_prefix("Caution: ").unwrap_or(c);
+    let mut chars = rest.chars();
+    chars
+        .next()
+        .map_or(String::new(), |f| f.to_uppercase().chain(chars).collect())
 }
 
 /// Every warning, prefixed with its scenario.
@@ -400,4 +304,22 @@ pub fn projection_report(r: &ProjectionResult) -> Result<Vec<u8>, crate::Error> 
         ],
     };
     Ok(render(&page).into_bytes())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_keep_four_significant_digits_without_trailing_zeros() {
+        // Derived by hand from the rule: decimals = 3 − ⌊log10 |v|⌋, then trailing zeros cut.
+        assert_eq!(num(1543.26), "1543");
+        assert_eq!(num(-80.0), "-80");
+        assert_eq!(num(0.081764), "0.08176");
+        assert_eq!(num(-0.00001), "-0.00001");
+        // At most 6 decimals: −1e-9 rounds to −0.000000, shown as 0.
+        assert_eq!(num(-1e-9), "0");
+        assert_eq!(mean_band(Some(1.0), Some(0.5), Some(2.25)), "1 [0.5, 2.25]");
+        assert!(caution().starts_with("Model estimates"));
+    }
 }
