@@ -143,19 +143,16 @@ pub fn compare_scenarios(
     };
     let mut results = Vec::with_capacity(scenarios.len());
     let mut differences = Vec::new();
-    let mut baseline_values: Vec<Vec<[f64; 7]>> = Vec::new();
+    let mut baseline_values = None;
     for (i, s) in scenarios.iter().enumerate() {
         let (result, traces) = run_traced(s, &options, &|done| progress(i, done))?;
-        let values: Vec<Vec<[f64; 7]>> = traces.into_iter().map(|t| t.values).collect();
-        if i == 0 {
-            baseline_values = values;
-        } else {
-            differences.extend(paired_differences(
-                &result,
-                &values,
-                &baseline_values,
-                &base.name,
-            ));
+        // Only the metric values per replicate and year are kept, not the classes.
+        let values: Vec<_> = traces.into_iter().map(|t| t.values).collect();
+        match &baseline_values {
+            None => baseline_values = Some(values),
+            Some(baseline) => {
+                differences.extend(paired_differences(&result, &values, baseline, &base.name))
+            }
         }
         results.push(result);
     }
@@ -170,10 +167,10 @@ pub fn compare_scenarios(
 
 /// Rows of scenario − baseline per year and metric, pairing replicate r with replicate r and
 /// skipping pairs where either value is missing (NaN).
-fn paired_differences(
+fn paired_differences<V: AsRef<[f64]>>(
     r: &ProjectionResult,
-    values: &[Vec<[f64; 7]>],
-    baseline: &[Vec<[f64; 7]>],
+    values: &[Vec<V>],
+    baseline: &[Vec<V>],
     baseline_name: &str,
 ) -> Vec<DifferenceRow> {
     let mut rows = Vec::with_capacity(r.years.len() * Metric::ALL.len());
@@ -185,7 +182,7 @@ fn paired_differences(
                 values
                     .iter()
                     .zip(baseline)
-                    .map(|(a, b)| a[y][m] - b[y][m])
+                    .map(|(a, b)| a[y].as_ref()[m] - b[y].as_ref()[m])
                     .filter(|d| d.is_finite()),
             );
             let s = summarise(&column);
