@@ -1,15 +1,14 @@
-//! Atomic file output: write to a temporary file in the target folder, then rename, so that a
-//! failed run never leaves a partial file behind.
+//! Atomic output of a single file: a temporary file in the target folder, then a rename, so
+//! that a failed run never leaves a partial file behind.
 
-use std::io::Write;
 use std::path::Path;
 
 use crate::Error;
 
-/// Write `bytes` to `path` atomically (temporary file in the same folder, then rename).
+/// Write `bytes` to `path` atomically (see [`crate::report::write_files_atomically`]).
 ///
 /// # Errors
-/// [`Error::Io`] naming the path when the folder does not exist or cannot be written.
+/// [`Error::Io`] naming the path when the folder cannot be created or written.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,
@@ -18,17 +17,7 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), Error> {
     let name = path
         .file_name()
         .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "output".into());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    if let Err(e) = result {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(Error::io(path, e));
-    }
+        .ok_or_else(|| Error::Usage(format!("{}: not a file name", path.display())))?;
+    crate::report::write_files_atomically(dir, &[(name, bytes.to_vec())])?;
     Ok(())
 }

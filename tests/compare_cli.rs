@@ -63,6 +63,7 @@ fn compare_writes_long_summaries_and_paired_differences() {
     for f in [
         "summary.csv",
         "classes.csv",
+        "harvest.csv",
         "differences.csv",
         "run.json",
         "survival.svg",

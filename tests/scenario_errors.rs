@@ -72,14 +72,17 @@ fn bad_actions() {
             scenario_toml(20, 5, 10, "", COHORT)
         )
     };
-    // Density limits are not implemented yet, so the key is unknown.
     assert_bad(
         &with("year = 10\ndensity_limit = { sdi_max = 900 }"),
-        &["sc.toml", "actions", "density_limit"],
+        &["sc.toml", "actions[0].density_limit", "sdi_max"],
     );
     assert_bad(
         &with("year = 10\nthin = { from = \"below\", to_stems_per_ha = 700 }\nset = { x = 1 }"),
-        &["sc.toml", "actions[0]", "exactly one"],
+        &[
+            "sc.toml",
+            "actions[0]",
+            "exactly one of `thin`, `set` or `density_limit`",
+        ],
     );
     assert_bad(
         &with("year = 25\nthin = { from = \"below\", to_stems_per_ha = 700 }"),
@@ -92,6 +95,82 @@ fn bad_actions() {
     assert_bad(
         &with("year = 5\nset = { treatment = \"released\" }"),
         &["sc.toml", "actions[0].set.treatment", "no attribute"],
+    );
+}
+
+#[test]
+fn bad_action_years_targets_and_kinds() {
+    let with = |actions: &str| format!("{}\n{actions}\n", scenario_toml(20, 5, 10, "", COHORT));
+    let thin = |body: &str| with(&format!("[[actions]]\nyear = 10\nthin = {{ {body} }}"));
+    // Years: off the step boundaries (5, 10, …), beyond the horizon, negative.
+    assert_bad(
+        &with("[[actions]]\nyear = 7\nthin = { from = \"below\", to_stems_per_ha = 700 }"),
+        &[
+            "sc.toml",
+            "actions[0].year",
+            "7",
+            "step boundary",
+            "step_years = 5",
+        ],
+    );
+    assert_bad(
+        &with("[[actions]]\nyear = 30\ndensity_limit = { max_sdi = 900 }"),
+        &["sc.toml", "actions[0].year", "outside"],
+    );
+    assert_bad(
+        &with("[[actions]]\nyear = -5\nset = { x = 1 }"),
+        &["sc.toml", "actions[0].year", "outside"],
+    );
+    // Thinning targets: none, two, bad values.
+    assert_bad(
+        &thin("from = \"below\""),
+        &["sc.toml", "actions[0].thin", "give one target"],
+    );
+    assert_bad(
+        &thin("from = \"below\", to_stems_per_ha = 700, remove_fraction = 0.2"),
+        &[
+            "sc.toml",
+            "actions[0].thin",
+            "to_stems_per_ha and remove_fraction",
+        ],
+    );
+    for f in ["0", "1", "1.5", "-0.2"] {
+        assert_bad(
+            &thin(&format!("from = \"proportional\", remove_fraction = {f}")),
+            &[
+                "sc.toml",
+                "actions[0].thin.remove_fraction",
+                f,
+                "between 0 and 1",
+            ],
+        );
+    }
+    assert_bad(
+        &thin("from = \"above\", to_stems_per_ha = -100"),
+        &["sc.toml", "actions[0].thin.to_stems_per_ha", "-100"],
+    );
+    assert_bad(
+        &thin("from = \"below\", to_basal_area_m2_ha = -2.5"),
+        &["sc.toml", "actions[0].thin.to_basal_area_m2_ha", "-2.5"],
+    );
+    assert_bad(
+        &thin("from = \"below\", to_basal_area = 20"),
+        &["sc.toml", "actions[0].thin", "to_basal_area"],
+    );
+    // Density limits.
+    assert_bad(
+        &with("[[actions]]\nyear = 5\ndensity_limit = { max_sdi = -900 }"),
+        &["sc.toml", "actions[0].density_limit.max_sdi", "-900"],
+    );
+    // An unknown action kind, named with its position among the actions.
+    assert_bad(
+        &with("[[actions]]\nyear = 5\nset = { x = 1 }\n\n[[actions]]\nyear = 10\nprune = { height = 2 }"),
+        &["sc.toml", "actions[1].prune", "unknown field", "density_limit"],
+    );
+    // `set`: an unknown attribute (the unknown level is in tests/project_actions.rs).
+    assert_bad(
+        &with("[[actions]]\nyear = 5\nset = { site_index = 20 }"),
+        &["sc.toml", "actions[0].set.site_index", "no attribute"],
     );
 }
 

@@ -13,7 +13,21 @@ use stemcast::fit::survival::{fit_survival, SurvivalResponse, SurvivalSpec};
 use stemcast::fit::{DataOptions, Years};
 use stemcast::model::file::{GrowthResponse, IntervalKind};
 use stemcast::model::link::Link;
+use stemcast::project::{run_scenario, Metric, ProjectionResult, RunOptions};
+use stemcast::scenario::Scenario;
 use stemcast::Error;
+
+/// The bundled demo scenarios (file name, text); their model paths point to `../models/`.
+const SCENARIOS: [(&str, &str); 2] = [
+    (
+        "released.toml",
+        include_str!("../../scenarios/released.toml"),
+    ),
+    (
+        "unreleased.toml",
+        include_str!("../../scenarios/unreleased.toml"),
+    ),
+];
 
 /// `demo` options.
 #[derive(Debug, Args)]
@@ -78,8 +92,53 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
     write_atomic(&growth_path, growth.model.to_toml()?.as_bytes())?;
     print!("{}", strip_caution(&summary::growth_text(&growth, &source)));
     println!("  model file: {}\n", growth_path.display());
+
+    let scenario_dir = out.join("scenarios");
+    mkdir(&scenario_dir)?;
+    for (file, text) in SCENARIOS {
+        let path = scenario_dir.join(file);
+        write_atomic(&path, text.as_bytes())?;
+        let scenario = Scenario::read(&path)?;
+        let result = run_scenario(&scenario, &RunOptions::default())?;
+        let dir = out.join("projections").join(&result.scenario);
+        stemcast::report::write_projection(&dir, &result)?;
+        print!("{}", projection_table(&result));
+        if !result.warnings.is_empty() {
+            println!(
+                "  {} warnings (extrapolation beyond the fitting data among them): see {}",
+                result.warnings.len(),
+                dir.join("run.json").display()
+            );
+        }
+        println!("  files: {}\n", dir.display());
+    }
     println!("{}", summary::CAUTION);
     Ok(())
+}
+
+/// A short table of one projection: every 10 years, mean and 90 % band of stems/ha, and the
+/// means of cumulative survival, basal area and QMD.
+fn projection_table(r: &ProjectionResult) -> String {
+    let mut out = format!(
+        "projection \"{}\" — {} replicates, seed {}; no ingrowth is modelled\n  year   age   stems/ha [90 % band]   cum. survival   basal area m²/ha   QMD cm\n",
+        r.scenario, r.settings.replicates, r.seed
+    );
+    let fmt = |v: Option<f64>, d: usize| v.map_or("–".to_string(), |x| format!("{x:.d$}"));
+    for y in r.years.iter().filter(|y| (y.year % 10.0).abs() < 1e-9) {
+        let stems = y.get(Metric::StemsPerHa);
+        out.push_str(&format!(
+            "  {:>4}  {:>4}   {:>5} [{:>4}–{:>4}]   {:>13}   {:>16}   {:>6}\n",
+            y.year,
+            y.age.map_or(String::new(), |a| format!("{a}")),
+            fmt(stems.mean, 0),
+            fmt(stems.p05, 0),
+            fmt(stems.p95, 0),
+            fmt(y.get(Metric::CumulativeSurvival).mean, 3),
+            fmt(y.get(Metric::BasalArea).mean, 1),
+            fmt(y.get(Metric::Qmd).mean, 1),
+        ));
+    }
+    out
 }
 
 /// The summaries end with the caution; the demo prints it once at the end.

@@ -5,6 +5,7 @@ mod check;
 mod compare;
 mod demo;
 mod fit;
+mod fit_args;
 mod project;
 mod rank;
 

@@ -5,7 +5,7 @@ use stemcast::fit::rank::{rank, RankSpec};
 use stemcast::fit::rank_render::{rank_csv, rank_json, rank_text};
 use stemcast::Error;
 
-use super::fit::{control, survival_spec, DataArgs, SurvivalModelArgs};
+use super::fit_args::{control, survival_spec, DataArgs, SurvivalModelArgs};
 
 /// Output format of the ranking.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]

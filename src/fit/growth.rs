@@ -216,6 +216,7 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
             records: Some(ols.records as u64),
             source: Some(spec.data.path.display().to_string()),
             source_sha256: Some(data.sha256.clone()),
+            method: Some("least_squares".to_string()),
             predictors: Some(spec.predictors.clone()),
             log_likelihood: Some(ols.log_likelihood),
             aic: Some(ols.aic),

@@ -193,7 +193,7 @@ pub fn fit_loaded(
         warnings.push("no remeasurement interval was given (--years N or a `years` column), so the model file has no period_years and cannot drive a projection".into());
     }
     warnings.extend(est.glm.warnings.iter().cloned());
-    let model = model_file(spec, &est, &inference, data, predictors);
+    let model = model_file(spec, &est, &inference, data, predictors, opts.estimator);
     Ok(SurvivalFit {
         glm: est.glm,
         estimator: opts.estimator,
@@ -217,6 +217,7 @@ fn model_file(
     inf: &Inference,
     data: &SurvivalData,
     predictors: &str,
+    estimator: Estimator,
 ) -> ModelFile {
     let glm = &est.glm;
     let design = &est.design;
@@ -251,6 +252,13 @@ fn model_file(
             records: Some(glm.n_obs as u64),
             source: Some(spec.data.path.display().to_string()),
             source_sha256: Some(data.records.sha256.clone()),
+            method: Some(
+                match estimator {
+                    Estimator::MaximumLikelihood => "maximum_likelihood",
+                    Estimator::Firth => "firth",
+                }
+                .to_string(),
+            ),
             predictors: Some(predictors.to_string()),
             deviance: Some(glm.deviance),
             null_deviance: Some(glm.null_deviance).filter(|d| d.is_finite()),

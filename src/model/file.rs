@@ -96,6 +96,10 @@ pub struct FitInfo {
     /// SHA-256 of the data file.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub source_sha256: Option<String>,
+    /// How the coefficients were estimated: `maximum_likelihood`, `firth` (penalised
+    /// likelihood) or `least_squares`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub method: Option<String>,
     /// The predictor list as given.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub predictors: Option<String>,

@@ -1,10 +1,11 @@
 //! The two drivers sharing the sub-step: the expected-value trajectory and Monte Carlo
 //! replicates. One [`Engine`] holds everything prepared once per run.
 
-use super::actions;
+use super::actions::{self, Removal};
 use super::evaluator::attribute_tables;
+use super::harvest::HarvestPlan;
 use super::params::CovarianceFactor;
-use super::result::TreeRow;
+use super::result::{HarvestAction, TreeRow};
 use super::rng::{self, Purpose};
 use super::stand::{Initial, Stand};
 use super::step::{observe_ranges, sub_step, GrowthRule, Mortality, StepContext, SurvivalRule};
@@ -29,6 +30,10 @@ pub(crate) struct Engine<'a> {
     factors: Option<(CovarianceFactor, CovarianceFactor)>,
     pub sub_steps_per_step: u64,
     pub steps: usize,
+    /// Rank of each record's tree id, to break diameter ties in actions.
+    ranks: Vec<u32>,
+    /// The removal events of `harvest.csv`.
+    pub harvest: HarvestPlan,
 }
 
 impl<'a> Engine<'a> {
@@ -44,6 +49,8 @@ impl<'a> Engine<'a> {
         } else {
             None
         };
+        let sub_steps_per_step = (s.step_years / s.sub_step_years).round() as u64;
+        let steps = (s.horizon_years / s.step_years).round() as usize;
         Engine {
             s,
             seed,
@@ -55,8 +62,10 @@ impl<'a> Engine<'a> {
             survival_beta: s.survival.model.common.predictor.coefficients(),
             growth_beta: s.growth.model.common.predictor.coefficients(),
             factors,
-            sub_steps_per_step: (s.step_years / s.sub_step_years).round() as u64,
-            steps: (s.horizon_years / s.step_years).round() as usize,
+            sub_steps_per_step,
+            steps,
+            ranks: actions::tie_ranks(&s.trees),
+            harvest: HarvestPlan::of(s, sub_steps_per_step * steps as u64),
         }
     }
 
@@ -107,16 +116,20 @@ impl<'a> Engine<'a> {
             classes: Vec::with_capacity(self.steps + 1),
             ranges: vec![[f64::INFINITY, f64::NEG_INFINITY]; self.n_ranged()],
             idle_thinnings: vec![0; s.actions.len()],
+            harvest: vec![[0.0; 2]; self.harvest.len()],
         };
         let n_surv = s.survival_eval.ranged.len();
         let track = self.n_ranged() > 0;
         let whole_records = replicate.is_some() && u.process;
         let mut cumulative = 1.0;
+        // The density limit in force (the latest `density_limit` reached).
+        let mut limit = None;
         let mut removed = self.apply_actions(
             0,
             stand,
             &mut numeric,
             &mut codes,
+            &mut limit,
             whole_records,
             &mut trace,
         );
@@ -130,7 +143,7 @@ impl<'a> Engine<'a> {
         );
         let mut k = 0;
         for step in 1..=self.steps {
-            removed = 0.0;
+            removed = [0.0; 2];
             for _ in 0..self.sub_steps_per_step {
                 let ctx = StepContext {
                     survival: &s.survival_eval,
@@ -156,14 +169,16 @@ impl<'a> Engine<'a> {
                     cumulative *= r.survived / r.start;
                 }
                 k += 1;
-                removed += self.apply_actions(
+                let r = self.apply_actions(
                     k,
                     stand,
                     &mut numeric,
                     &mut codes,
+                    &mut limit,
                     whole_records,
                     &mut trace,
                 );
+                removed = [removed[0] + r[0], removed[1] + r[1]];
             }
             let year = step as f64 * s.step_years;
             self.snapshot(
@@ -178,17 +193,21 @@ impl<'a> Engine<'a> {
         trace
     }
 
-    /// Apply the actions due at sub-step boundary `at` in file order; returns stems removed.
+    /// Apply the actions due at sub-step end `at` in file order (a `density_limit` replaces
+    /// `limit`), then the density limit in force. Returns the stems removed by thinning and
+    /// by the density limit; both also go to the trace's harvest slots.
+    #[allow(clippy::too_many_arguments)]
     fn apply_actions(
         &self,
         at: u64,
         stand: &mut Stand,
         numeric: &mut [Vec<f64>],
         codes: &mut [Vec<u32>],
+        limit: &mut Option<f64>,
         whole_records: bool,
         trace: &mut Trace,
-    ) -> f64 {
-        let mut removed = 0.0;
+    ) -> [f64; 2] {
+        let mut thinned = Removal::default();
         for (i, a) in self
             .s
             .actions
@@ -197,35 +216,51 @@ impl<'a> Engine<'a> {
             .filter(|(_, a)| a.at == at)
         {
             match &a.kind {
-                ActionKind::Thin {
-                    from,
-                    to_stems_per_ha,
-                } => {
-                    let r = actions::thin(stand, *from, *to_stems_per_ha, whole_records);
-                    if r == 0.0 {
+                ActionKind::Thin { from, target } => {
+                    let r = actions::thin(stand, *from, *target, &self.ranks, whole_records);
+                    if r.stems == 0.0 {
                         trace.idle_thinnings[i] += 1;
                     }
-                    removed += r;
+                    thinned.add(r);
                 }
                 ActionKind::Set(values) => actions::set(values, numeric, codes),
+                ActionKind::DensityLimit { max_sdi } => *limit = Some(*max_sdi),
             }
         }
-        removed
+        let died = match *limit {
+            Some(max_sdi) => actions::density_limit(stand, max_sdi, &self.ranks, whole_records),
+            None => Removal::default(),
+        };
+        for (action, r) in [
+            (HarvestAction::Thin, thinned),
+            (HarvestAction::DensityLimit, died),
+        ] {
+            if let Some(slot) = self.harvest.slot(at, action) {
+                trace.harvest[slot] = [r.stems, r.basal_area_m2_ha];
+            }
+        }
+        [thinned.stems, died.stems]
     }
 
     fn snapshot(
         &self,
         stand: &Stand,
         cumulative: f64,
-        removed: f64,
+        removed: [f64; 2],
         year: f64,
         trace: &mut Trace,
         trees: Option<&mut Vec<TreeRow>>,
     ) {
         let t = stand.totals();
-        trace
-            .values
-            .push([t.stems, cumulative, t.ba, t.qmd, t.sdi(), removed, 0.0]);
+        trace.values.push([
+            t.stems,
+            cumulative,
+            t.ba,
+            t.qmd,
+            t.sdi(),
+            removed[0],
+            removed[1],
+        ]);
         // Truncation is the floor for positive diameters. Records are in descending DBH
         // order, so the first has the largest class and each class is one run.
         let class_of = |d: f64| (d * (1.0 / CLASS_WIDTH_CM)) as usize;

@@ -9,6 +9,7 @@ mod compare;
 mod drivers;
 pub mod evaluator;
 mod fastmath;
+mod harvest;
 mod params;
 mod result;
 mod rng;
@@ -24,7 +25,8 @@ pub use compare::{
     compare_scenarios, validate_comparison, CompareOptions, Comparison, DifferenceRow,
 };
 pub use result::{
-    ClassRow, Driver, Metric, ProjectionResult, Settings, Summary, TreeRow, YearSummary,
+    ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,
+    TreeRow, YearSummary,
 };
 pub use summary::{percentile_type7, summarise};
 
@@ -145,6 +147,7 @@ pub(crate) fn run_traced(
         .collect();
     let (summaries, classes) = summary::reduce(&traces, &years, &ages, CLASS_WIDTH_CM, !o.expected);
     let warnings = warnings(s, &traces, &summaries);
+    let harvest = engine.harvest.rows(&traces, !o.expected);
     let u = s.uncertainty;
     let result = ProjectionResult {
         scenario: s.name.clone(),
@@ -171,6 +174,7 @@ pub(crate) fn run_traced(
         years: summaries,
         classes,
         trees: tree_rows,
+        harvest,
         inputs: s.inputs.clone(),
         warnings,
     };

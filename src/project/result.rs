@@ -135,6 +135,39 @@ pub struct TreeRow {
     pub stems_per_ha: f64,
 }
 
+/// What took trees out in a row of `harvest.csv`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum HarvestAction {
+    /// The `thin` actions of that year together.
+    Thin,
+    /// The density limit in force at the end of that sub-step.
+    DensityLimit,
+}
+
+impl HarvestAction {
+    /// Name as written in `harvest.csv`.
+    pub fn name(self) -> &'static str {
+        match self {
+            HarvestAction::Thin => "thin",
+            HarvestAction::DensityLimit => "density_limit",
+        }
+    }
+}
+
+/// Stems and basal area removed by one kind of action at one year, across replicates. `sd`
+/// and the percentiles are `None` for the expected driver.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HarvestRow {
+    /// Years since the start (a sub-step end; 0 for actions before the first sub-step).
+    pub year: f64,
+    /// What removed the trees.
+    pub action: HarvestAction,
+    /// Stems per hectare removed.
+    pub stems_per_ha: Summary,
+    /// Basal area removed, m²/ha.
+    pub basal_area_m2_ha: Summary,
+}
+
 /// The settings a run used (written to `run.json`).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Settings {
@@ -181,6 +214,9 @@ pub struct ProjectionResult {
     pub classes: Vec<ClassRow>,
     /// Expected driver: every record at every output year (empty for Monte Carlo).
     pub trees: Vec<TreeRow>,
+    /// Removals per action event: every year with a `thin` (even when it removed nothing),
+    /// and every sub-step end at which the density limit removed stems in some replicate.
+    pub harvest: Vec<HarvestRow>,
     /// Input files and their hashes.
     pub inputs: Vec<InputFile>,
     /// Warnings (extrapolation, replicates without stems).

@@ -14,6 +14,8 @@ pub(crate) struct Trace {
     pub ranges: Vec<[f64; 2]>,
     /// Per action: 1 when a thinning found the stand at or below its target.
     pub idle_thinnings: Vec<u32>,
+    /// Per harvest event slot: stems/ha and basal area (m²/ha) removed.
+    pub harvest: Vec<[f64; 2]>,
 }
 
 /// Percentile of sorted data by linear interpolation between order statistics (type 7).

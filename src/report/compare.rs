@@ -10,7 +10,7 @@ use super::page::{
     caution, facts_of, mean_band, models_of, models_section, settings_section, steps_section,
     warnings_block, TABLE_METRICS, YEARS,
 };
-use super::{classes_csv, run_json, summary_csv, write_files_atomically};
+use super::{classes_csv, harvest_csv, run_json, summary_csv, write_files_atomically};
 use crate::project::{Comparison, Metric, ProjectionResult};
 use crate::scenario::Scenario;
 
@@ -123,7 +123,8 @@ pub fn difference_chart_svg(c: &Comparison, metric: Metric) -> Result<String, cr
     )
 }
 
-/// Every output file of a comparison: `summary.csv`, `classes.csv`, `differences.csv`,
+/// Every output file of a comparison: `summary.csv`, `classes.csv`, `harvest.csv`,
+/// `differences.csv`,
 /// `run.json`, `survival.svg`, `stems.svg`, `difference_stems.svg`,
 /// `difference_survival.svg`, `distributions.svg` and `report.html`. `scenarios` are the
 /// compared scenarios in the comparison's order (for the report's settings and models).
@@ -170,6 +171,10 @@ pub fn render_comparison(
         (
             "classes.csv".to_string(),
             concat_csv(rs.iter().map(classes_csv)),
+        ),
+        (
+            "harvest.csv".to_string(),
+            concat_csv(rs.iter().map(harvest_csv)),
         ),
         ("differences.csv".to_string(), differences_csv(c)),
         ("run.json".to_string(), comparison_json(c)),

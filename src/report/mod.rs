@@ -21,12 +21,13 @@ pub use charts::{
 pub use charts_classes::{distribution_chart_svg, distribution_years};
 pub use compare::{difference_chart_svg, differences_csv, render_comparison, write_comparison};
 pub use page::projection_report;
-pub use tables::{classes_csv, run_json, summary_csv, trees_csv};
+pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
 
 use crate::project::{Driver, ProjectionResult};
 
-/// Render every output file of a projection: `summary.csv`, `classes.csv`, `run.json`,
-/// `survival.svg`, `stems.svg`, `report.html` and, for the expected driver, `trees.csv`.
+/// Render every output file of a projection: `summary.csv`, `classes.csv`, `harvest.csv`,
+/// `run.json`, `survival.svg`, `stems.svg`, `report.html` and, for the expected driver,
+/// `trees.csv`.
 ///
 /// # Errors
 /// [`crate::Error::Io`] if a chart cannot be drawn.
@@ -34,6 +35,7 @@ pub fn render_projection(r: &ProjectionResult) -> Result<Vec<(String, Vec<u8>)>,
     let mut files = vec![
         ("summary.csv".to_string(), summary_csv(r)),
         ("classes.csv".to_string(), classes_csv(r)),
+        ("harvest.csv".to_string(), harvest_csv(r)),
         ("run.json".to_string(), run_json(r)),
         (
             "survival.svg".to_string(),

@@ -98,6 +98,43 @@ pub fn trees_csv(r: &ProjectionResult) -> Vec<u8> {
     )
 }
 
+/// `harvest.csv`: `scenario,driver,year,action,stems_per_ha_mean,stems_per_ha_p05,
+/// stems_per_ha_p95,basal_area_m2_ha_mean,basal_area_m2_ha_p05,basal_area_m2_ha_p95`, one row
+/// per action event (see [`crate::project::HarvestRow`]); percentiles are type 7 over
+/// replicates and empty for the expected driver.
+pub fn harvest_csv(r: &ProjectionResult) -> Vec<u8> {
+    let rows = r.harvest.iter().map(|h| {
+        let (n, g) = (&h.stems_per_ha, &h.basal_area_m2_ha);
+        vec![
+            r.scenario.clone(),
+            r.driver.name().to_string(),
+            h.year.to_string(),
+            h.action.name().to_string(),
+            opt(n.mean),
+            opt(n.p05),
+            opt(n.p95),
+            opt(g.mean),
+            opt(g.p05),
+            opt(g.p95),
+        ]
+    });
+    csv_bytes(
+        &[
+            "scenario",
+            "driver",
+            "year",
+            "action",
+            "stems_per_ha_mean",
+            "stems_per_ha_p05",
+            "stems_per_ha_p95",
+            "basal_area_m2_ha_mean",
+            "basal_area_m2_ha_p05",
+            "basal_area_m2_ha_p95",
+        ],
+        rows,
+    )
+}
+
 /// `run.json`: version, seed, input file hashes, settings, warnings. Thread count is left out
 /// on purpose: results do not depend on it.
 pub fn run_json(r: &ProjectionResult) -> Vec<u8> {

@@ -1,8 +1,8 @@
-//! Validating `[[actions]]`: the sub-step each action falls on, attributes that exist, levels
-//! the models know. Levels introduced by `set` are added to the trees' level lists so that the
-//! compiled models resolve them to codes.
+//! Validating `[[actions]]` (design §5): the sub-step each action falls on, thinning targets,
+//! density limits, attributes that exist and levels the models know. Levels introduced by
+//! `set` are added to the trees' level lists so that the compiled models resolve them to codes.
 
-use super::schema::{ActionEntry, ThinFrom};
+use super::schema::{ActionEntry, ThinEntry, ThinFrom};
 use super::trees::{AttributeValues, TreeList};
 use super::ScenarioError;
 use crate::model::stored::ModelCommon;
@@ -10,10 +10,10 @@ use crate::model::stored::ModelCommon;
 /// A validated management action.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Action {
-    /// The year given in the scenario.
+    /// The year given in the scenario: 0 or a step boundary within the horizon.
     pub year: f64,
-    /// Applied before the first sub-step (0) or at the end of sub-step `at` (1-based): the
-    /// first sub-step whose end reaches `year`.
+    /// Applied before the first sub-step (0) or at the end of sub-step `at` (1-based), the
+    /// sub-step that ends at `year`.
     pub at: u64,
     /// What it does.
     pub kind: ActionKind,
@@ -23,17 +23,22 @@ impl Action {
     /// A one-line description (`year 20: thin from below to 700 stems/ha`).
     pub fn describe(&self) -> String {
         let what = match &self.kind {
-            ActionKind::Thin {
-                from,
-                to_stems_per_ha,
-            } => format!(
-                "thin from {} to {to_stems_per_ha} stems/ha",
-                match from {
-                    ThinFrom::Below => "below",
-                    ThinFrom::Above => "above",
+            ActionKind::Thin { from, target } => {
+                let from = match from {
+                    ThinFrom::Below => "thin from below",
+                    ThinFrom::Above => "thin from above",
+                    ThinFrom::Proportional => "thin proportionally",
+                };
+                match target {
+                    ThinTarget::StemsPerHa(n) => format!("{from} to {n} stems/ha"),
+                    ThinTarget::BasalAreaM2Ha(g) => format!("{from} to {g} m²/ha basal area"),
+                    ThinTarget::RemoveFraction(f) => format!("{from}, removing {f} of the stems"),
                 }
-            ),
+            }
             ActionKind::Set(v) => format!("set {} attribute(s) of every tree", v.len()),
+            ActionKind::DensityLimit { max_sdi } => format!(
+                "density limit SDI {max_sdi}, in force from then on: the smallest trees die at the end of every sub-step until the stand is at the limit"
+            ),
         };
         format!("year {}: {what}", self.year)
     }
@@ -42,15 +47,32 @@ impl Action {
 /// What an action does.
 #[derive(Debug, Clone, PartialEq)]
 pub enum ActionKind {
-    /// Remove trees from one end of the diameter distribution down to a density.
+    /// Remove trees in diameter order (or evenly across diameters) down to a target.
     Thin {
-        /// Which end goes first.
+        /// Which trees go first.
         from: ThinFrom,
-        /// Target stems per hectare.
-        to_stems_per_ha: f64,
+        /// What the thinning aims at.
+        target: ThinTarget,
     },
     /// Give every tree these attribute values.
     Set(Vec<SetValue>),
+    /// From this year on, at the end of every sub-step, the smallest trees die until
+    /// Reineke's SDI is at most `max_sdi`. A later density limit replaces this one.
+    DensityLimit {
+        /// Largest stand density index allowed (metric, reference QMD 25.4 cm).
+        max_sdi: f64,
+    },
+}
+
+/// The target of a thinning (exactly one per `thin`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ThinTarget {
+    /// Keep at most this many stems per hectare (`to_stems_per_ha`, ≥ 0).
+    StemsPerHa(f64),
+    /// Keep at most this basal area, m²/ha (`to_basal_area_m2_ha`, ≥ 0).
+    BasalAreaM2Ha(f64),
+    /// Remove this fraction of the stems (`remove_fraction`, in (0, 1)).
+    RemoveFraction(f64),
 }
 
 /// One attribute assignment of a `set` action.
@@ -78,6 +100,7 @@ pub(crate) fn validate(
     trees: &mut TreeList,
     models: &[&ModelCommon],
     horizon_years: f64,
+    step_years: f64,
     sub_step_years: f64,
     file: &str,
 ) -> Result<Vec<Action>, ScenarioError> {
@@ -89,7 +112,7 @@ pub(crate) fn validate(
     let mut out = Vec::with_capacity(entries.len());
     for (i, a) in entries.iter().enumerate() {
         let key = format!("actions[{i}]");
-        if !(a.year >= 0.0 && a.year <= horizon_years) {
+        if !(a.year >= 0.0 && a.year <= horizon_years * (1.0 + 1e-12)) {
             return Err(err(
                 format!("{key}.year"),
                 format!(
@@ -98,21 +121,23 @@ pub(crate) fn validate(
                 ),
             ));
         }
-        let at = (a.year / sub_step_years - 1e-9).ceil().max(0.0) as u64;
-        let kind = match (&a.thin, &a.set) {
-            (Some(t), None) => {
-                if !(t.to_stems_per_ha >= 0.0 && t.to_stems_per_ha.is_finite()) {
-                    return Err(err(
-                        format!("{key}.thin.to_stems_per_ha"),
-                        format!("{} is not a density", t.to_stems_per_ha),
-                    ));
-                }
-                ActionKind::Thin {
-                    from: t.from,
-                    to_stems_per_ha: t.to_stems_per_ha,
-                }
-            }
-            (None, Some(set)) => {
+        let steps = (a.year / step_years).round();
+        if (a.year - steps * step_years).abs() > 1e-9 * step_years {
+            return Err(err(
+                format!("{key}.year"),
+                format!(
+                    "{} is not on a step boundary (0 or a whole multiple of step_years = {step_years})",
+                    a.year
+                ),
+            ));
+        }
+        let at = (steps * step_years / sub_step_years).round() as u64;
+        let kind = match (&a.thin, &a.set, &a.density_limit) {
+            (Some(t), None, None) => ActionKind::Thin {
+                from: t.from,
+                target: thin_target(t).map_err(|(k, m)| err(format!("{key}.thin{k}"), m))?,
+            },
+            (None, Some(set), None) => {
                 let mut values = Vec::with_capacity(set.len());
                 for (name, value) in set {
                     let k = format!("{key}.set.{name}");
@@ -120,10 +145,21 @@ pub(crate) fn validate(
                 }
                 ActionKind::Set(values)
             }
+            (None, None, Some(limit)) => {
+                if !(limit.max_sdi > 0.0 && limit.max_sdi.is_finite()) {
+                    return Err(err(
+                        format!("{key}.density_limit.max_sdi"),
+                        format!("{} is not a positive stand density index", limit.max_sdi),
+                    ));
+                }
+                ActionKind::DensityLimit {
+                    max_sdi: limit.max_sdi,
+                }
+            }
             _ => {
                 return Err(err(
                     key,
-                    "give exactly one of `thin` or `set` per action".into(),
+                    "give exactly one of `thin`, `set` or `density_limit` per action".into(),
                 ))
             }
         };
@@ -134,6 +170,44 @@ pub(crate) fn validate(
         });
     }
     Ok(out)
+}
+
+/// The one target of a `thin`; on error, the key suffix (`.remove_fraction`) and a message.
+fn thin_target(t: &ThinEntry) -> Result<ThinTarget, (String, String)> {
+    let given: Vec<(&str, f64)> = [
+        ("to_stems_per_ha", t.to_stems_per_ha),
+        ("to_basal_area_m2_ha", t.to_basal_area_m2_ha),
+        ("remove_fraction", t.remove_fraction),
+    ]
+    .into_iter()
+    .filter_map(|(k, v)| v.map(|v| (k, v)))
+    .collect();
+    let (name, value) = match given.as_slice() {
+        [one] => *one,
+        [] => {
+            return Err((
+                String::new(),
+                "give one target: to_stems_per_ha, to_basal_area_m2_ha or remove_fraction".into(),
+            ))
+        }
+        more => {
+            let names: Vec<&str> = more.iter().map(|(k, _)| *k).collect();
+            return Err((
+                String::new(),
+                format!("give only one target, not {}", names.join(" and ")),
+            ));
+        }
+    };
+    let bad = |why: &str| Err((format!(".{name}"), format!("{value} {why}")));
+    match name {
+        "remove_fraction" if !(value > 0.0 && value < 1.0) => {
+            bad("is not a fraction strictly between 0 and 1")
+        }
+        "remove_fraction" => Ok(ThinTarget::RemoveFraction(value)),
+        _ if !(value >= 0.0 && value.is_finite()) => bad("is not a density (a number ≥ 0)"),
+        "to_stems_per_ha" => Ok(ThinTarget::StemsPerHa(value)),
+        _ => Ok(ThinTarget::BasalAreaM2Ha(value)),
+    }
 }
 
 fn set_value(

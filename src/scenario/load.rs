@@ -284,6 +284,7 @@ impl Scenario {
             &mut trees,
             &[&survival.common, &growth.common],
             raw.horizon_years,
+            raw.step_years,
             sub_step_years,
             file,
         )?;

@@ -8,7 +8,7 @@ mod plan;
 pub mod schema;
 mod trees;
 
-pub use actions::{Action, ActionKind, SetValue};
+pub use actions::{Action, ActionKind, SetValue, ThinTarget};
 pub use cohort::quantile_diameters;
 pub use load::{InputFile, LoadedModel, Scenario, Uncertainty};
 pub use plan::{check, CheckReport};

@@ -37,28 +37,53 @@ pub struct ScenarioFile {
     pub actions: Vec<ActionEntry>,
 }
 
-/// One `[[actions]]` entry: a year and exactly one of `thin` or `set`.
+/// One `[[actions]]` entry: a year and exactly one of `thin`, `set` or `density_limit`.
+///
+/// `year` is 0 or a step boundary (a whole multiple of `step_years`) within the horizon. An
+/// action applies at the end of the sub-step that ends at its year (year 0: before the first
+/// sub-step), after mortality and growth; actions of one year apply in file order, then the
+/// density limit in force. A `density_limit` stays in force from its year to the horizon (a
+/// later one replaces it) and is applied at the end of every sub-step. Summaries of a year
+/// are taken after its actions.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ActionEntry {
-    /// Years since the start (0 applies before the first sub-step).
+    /// Years since the start, on a step boundary (0 applies before the first sub-step).
     pub year: f64,
-    /// Thin to a target density.
+    /// Thin to a target.
     #[serde(default)]
     pub thin: Option<ThinEntry>,
     /// Set attributes of every tree.
     #[serde(default)]
     pub set: Option<BTreeMap<String, toml::Value>>,
+    /// A maximum stand density index, in force from `year` on.
+    #[serde(default)]
+    pub density_limit: Option<DensityLimitEntry>,
 }
 
-/// `thin = { from = "below", to_stems_per_ha = 700 }`.
+/// `thin = { from = "below", to_stems_per_ha = 700 }`: a method and exactly one target.
 #[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ThinEntry {
-    /// Which end of the diameter distribution goes first.
+    /// Which trees go first.
     pub from: ThinFrom,
     /// Stems per hectare to keep at most.
-    pub to_stems_per_ha: f64,
+    #[serde(default)]
+    pub to_stems_per_ha: Option<f64>,
+    /// Basal area (m²/ha) to keep at most.
+    #[serde(default)]
+    pub to_basal_area_m2_ha: Option<f64>,
+    /// Fraction of the stems to remove, in (0, 1).
+    #[serde(default)]
+    pub remove_fraction: Option<f64>,
+}
+
+/// `density_limit = { max_sdi = 900 }`.
+#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DensityLimitEntry {
+    /// Largest Reineke stand density index allowed (metric, reference QMD 25.4 cm).
+    pub max_sdi: f64,
 }
 
 /// Which trees a thinning removes first.
@@ -69,6 +94,8 @@ pub enum ThinFrom {
     Below,
     /// Largest diameters first.
     Above,
+    /// Evenly across the diameter distribution.
+    Proportional,
 }
 
 /// `[models]`.
@@ -183,10 +210,19 @@ pub fn key_path_at(text: &str, offset: usize) -> String {
     let line_start = text[..offset].rfind('\n').map_or(0, |i| i + 1);
     let line_no = text[..offset].matches('\n').count() + 1;
     let mut table = String::new();
+    // `[[name]]` opens the next element of an array of tables: name it `name[k]`.
+    let mut arrays: BTreeMap<String, usize> = BTreeMap::new();
     for line in text[..line_start].lines() {
         let t = line.trim();
         if t.starts_with('[') {
-            table = t.trim_matches(|c| c == '[' || c == ']').trim().to_string();
+            let name = t.trim_matches(|c| c == '[' || c == ']').trim().to_string();
+            table = if t.starts_with("[[") {
+                let k = arrays.entry(name.clone()).or_insert(0);
+                *k += 1;
+                format!("{name}[{}]", *k - 1)
+            } else {
+                name
+            };
         }
     }
     let line = text[line_start..].lines().next().unwrap_or("");
