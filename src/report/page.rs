@@ -153,56 +153,62 @@ pub(crate) fn steps_section(results: &[ProjectionResult]) -> Section {
     }
 }
 
-/// The settings of each projection in one table.
+/// The settings of each projection: the numbers in one table, then one paragraph per
+/// scenario with its file, trees, uncertainty and actions (text reads better left-aligned).
 pub(crate) fn settings_section(results: &[ProjectionResult], facts: &[Option<Facts>]) -> Section {
     let header = [
         "scenario",
-        "file",
         "horizon (years)",
         "step (years)",
         "replicates",
         "seed",
-        "trees",
-        "uncertainty",
         "actions",
     ];
     let rows = results
         .iter()
-        .enumerate()
-        .map(|(i, r)| {
+        .map(|r| {
             let s = &r.settings;
-            let f = facts.get(i).and_then(Option::as_ref);
-            let on = |b: bool| if b { "on" } else { "off" };
             vec![
                 r.scenario.clone(),
-                f.map_or(String::new(), |f| f.file.clone()),
                 s.horizon_years.to_string(),
                 s.step_years.to_string(),
                 s.replicates.to_string(),
                 r.seed.to_string(),
-                f.map_or(String::new(), |f| f.trees.clone()),
-                format!(
-                    "mortality {}, parameters {}, growth residuals {}{}",
-                    on(s.process),
-                    on(s.parameters),
-                    on(s.growth_residual),
-                    s.area_ha
-                        .map_or(String::new(), |a| format!(", whole stems on {a} ha"))
-                ),
-                if s.actions.is_empty() {
-                    "none".into()
-                } else {
-                    s.actions.join("; ")
-                },
+                s.actions.len().to_string(),
             ]
         })
         .collect();
+    let mut blocks = vec![Block::Table {
+        header: header.iter().map(|h| h.to_string()).collect(),
+        rows,
+    }];
+    for (i, r) in results.iter().enumerate() {
+        let s = &r.settings;
+        let on = |b: bool| if b { "on" } else { "off" };
+        let mut text = format!("\"{}\"", r.scenario);
+        if let Some(f) = facts.get(i).and_then(Option::as_ref) {
+            text.push_str(&format!(" ({}). Trees: {}.", f.file, f.trees));
+        } else {
+            text.push('.');
+        }
+        text.push_str(&format!(
+            " Uncertainty: random mortality {}, parameter draws {}, growth residuals {}{}.",
+            on(s.process),
+            on(s.parameters),
+            on(s.growth_residual),
+            s.area_ha
+                .map_or(String::new(), |a| format!(", whole stems on {a} ha"))
+        ));
+        text.push_str(&if s.actions.is_empty() {
+            " Actions: none.".to_string()
+        } else {
+            format!(" Actions: {}.", s.actions.join("; "))
+        });
+        blocks.push(Block::Paragraph(text));
+    }
     Section {
         heading: "Scenarios".into(),
-        blocks: vec![Block::Table {
-            header: header.iter().map(|h| h.to_string()).collect(),
-            rows,
-        }],
+        blocks,
     }
 }
 
