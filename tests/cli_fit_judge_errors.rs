@@ -83,7 +83,21 @@ fn exposure_needs_cloglog_and_outcome_dead() {
     let mut alive = exposure.to_vec();
     alive.extend(["--link", "cloglog"]);
     refused(&sb, TREES, &alive, "--link cloglog --outcome dead");
-    refused(&sb, TREES, &["--interval", "exposure"], "--years-col");
+    // Without --years-col the default `years` column is used; a file without one is refused.
+    let no_years = TREES.replacen("years", "span", 1);
+    refused(
+        &sb,
+        &no_years,
+        &[
+            "--interval",
+            "exposure",
+            "--link",
+            "cloglog",
+            "--outcome",
+            "dead",
+        ],
+        "--years-col",
+    );
 }
 
 #[test]

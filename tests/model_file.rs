@@ -60,3 +60,38 @@ fn malformed_model_files_name_the_key() {
         "covariance.matrix[0]",
     );
 }
+
+#[test]
+fn model_typed_from_published_coefficients_predicts_like_the_reference_fit() {
+    // Dobson & Barnett (2008) §7.3.1 logit coefficients typed by hand (two decimals).
+    let m = Model::read(Path::new(
+        "tests/fixtures/models/dobson_barnett_bliss_logit.toml",
+    ))
+    .unwrap();
+    let Model::Survival(s) = m else {
+        panic!("expected a survival model")
+    };
+    assert_eq!(s.outcome, Outcome::Dead);
+    let b = s.common.predictor.coefficients();
+    assert_eq!(b, vec![-60.72, 34.27]);
+    // Fitted P(dead) of R glm / statsmodels at the eight doses (bliss_logit_counts.json,
+    // expected.fitted_values). Rounding the coefficients to 0.005 moves η by at most
+    // 0.005 + 0.005·1.884 < 0.01, so p by at most 0.0025 (|dp/dη| ≤ 1/4): derived.
+    let doses = [
+        1.6907, 1.7242, 1.7552, 1.7842, 1.8113, 1.8369, 1.861, 1.8839,
+    ];
+    let reference = [
+        0.058601025515914236,
+        0.1640278689000925,
+        0.3621190058724291,
+        0.6053149063330526,
+        0.7951717719347348,
+        0.9032358193757742,
+        0.9551961068089295,
+        0.9790493440767001,
+    ];
+    for (d, r) in doses.iter().zip(reference) {
+        let p = s.link.inverse(b[0] + b[1] * d);
+        assert!((p - r).abs() < 0.0025, "dose {d}: {p} vs {r}");
+    }
+}

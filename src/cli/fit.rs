@@ -103,7 +103,7 @@ pub fn run(cmd: FitCommand) -> Result<(), Error> {
                 }),
             };
             let spec = GrowthSpec {
-                data: data_options(&a.common.data, None, Some(&a.dbh2))?,
+                data: data_options(&a.common.data, Some(&a.status), Some(&a.dbh2))?,
                 predictors: a.common.predictors.clone(),
                 target,
                 years: years(&a.common.data),

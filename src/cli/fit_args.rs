@@ -49,7 +49,9 @@ pub(crate) enum UnitsArg {
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub(crate) enum ResponseArg {
+    #[value(alias = "ln_bai")]
     LnBai,
+    #[value(alias = "annual_increment")]
     AnnualIncrement,
 }
 
@@ -202,6 +204,9 @@ pub struct GrowthArgs {
     /// Column of the diameter at the second measurement.
     #[arg(long, default_value = "dbh2")]
     pub(crate) dbh2: String,
+    /// Status column, used when present to count dead and cut trees separately.
+    #[arg(long, default_value = "alive")]
+    pub(crate) status: String,
     /// Response computed from the two diameters.
     #[arg(
         long,

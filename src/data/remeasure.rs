@@ -356,6 +356,12 @@ pub fn load_remeasurement_bytes(
         }
     }
     counts.records = frame.len();
+    // Terms call the first-measurement diameter `dbh` whatever the file calls it.
+    if names.dbh != "dbh" && !frame.columns.contains_key("dbh") {
+        if let Some(c) = frame.columns.get(&names.dbh).cloned() {
+            frame.columns.insert("dbh".to_string(), c);
+        }
+    }
     if frame.is_empty() {
         return Err(DataError::file(
             source,

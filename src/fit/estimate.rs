@@ -74,7 +74,7 @@ pub fn design_for(
     data: &SurvivalData,
     predictors: &str,
 ) -> Result<Design, Error> {
-    let needs = term_needs(predictors, &spec.data.use_columns)?;
+    let needs = term_needs(predictors, &spec.data)?;
     Ok(build_design(
         &needs.terms,
         &data.records.frame,

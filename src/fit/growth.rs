@@ -62,7 +62,7 @@ pub struct GrowthFit {
 /// # Errors
 /// Bad data or terms (exit code 2), rank deficiency (2).
 pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
-    let needs = term_needs(&spec.predictors, &spec.data.use_columns)?;
+    let needs = term_needs(&spec.predictors, &spec.data)?;
     let mut required = needs.required.clone();
     let names = &spec.data.names;
     let years_col = match &spec.years {

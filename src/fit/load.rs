@@ -76,10 +76,14 @@ pub fn check_interval(spec: &SurvivalSpec) -> Result<(), Error> {
         SurvivalResponse::Status { outcome } => Some(*outcome),
         SurvivalResponse::Counts { .. } => None,
     };
-    if spec.interval != IntervalKind::Fixed && spec.years == Years::Default {
+    if spec.interval != IntervalKind::Fixed
+        && spec.years == Years::Default
+        && !super::file_has_column(&spec.data.path, &spec.data.names.years)
+    {
         return Err(Error::Usage(format!(
-            "--interval {} needs the interval of each record: give --years-col COL",
-            interval_name(spec.interval)
+            "--interval {} needs the interval of each record: give --years-col COL (the file has no `{}` column)",
+            interval_name(spec.interval),
+            spec.data.names.years
         )));
     }
     match spec.interval {
@@ -106,7 +110,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
     let mut required: Vec<Required> = Vec::new();
     let mut derived: Vec<DerivedCovariate> = Vec::new();
     for set in &opts.predictor_sets {
-        let needs = term_needs(set, &spec.data.use_columns)?;
+        let needs = term_needs(set, &spec.data)?;
         for r in needs.required {
             if !required.iter().any(|q| q.column == r.column) {
                 required.push(r);

@@ -19,7 +19,7 @@ use std::collections::BTreeMap;
 use std::path::PathBuf;
 
 use crate::data::{ColumnNames, DerivedCovariate, Required, Units};
-use crate::model::terms::{parse_predictors, Term, DERIVED};
+use crate::model::terms::{parse_predictors, Term};
 use crate::model::ModelError;
 
 /// Options shared by both fits: where the data is and how to read it.
@@ -67,7 +67,7 @@ pub struct TermNeeds {
 ///
 /// # Errors
 /// A term outside the grammar (design §6).
-pub fn term_needs(predictors: &str, use_columns: &[String]) -> Result<TermNeeds, ModelError> {
+pub fn term_needs(predictors: &str, data: &DataOptions) -> Result<TermNeeds, ModelError> {
     let terms = parse_predictors(predictors)?;
     if terms.is_empty() {
         return Err(ModelError::Invalid(
@@ -79,18 +79,24 @@ pub fn term_needs(predictors: &str, use_columns: &[String]) -> Result<TermNeeds,
     for term in &terms {
         for factor in &term.factors {
             let var = factor.var();
-            let computed = DERIVED.contains(&var) && !use_columns.iter().any(|u| u == var);
-            match DerivedCovariate::from_name(var) {
-                Some(d) if computed => {
-                    if !derived.contains(&d) {
-                        derived.push(d);
-                    }
+            // Derived covariates are always planned: the data layer either computes them or,
+            // with --use-column, reads the file's column and warns that projections recompute
+            // them.
+            if let Some(d) = DerivedCovariate::from_name(var) {
+                if !derived.contains(&d) {
+                    derived.push(d);
                 }
-                _ => {
-                    if !required.iter().any(|r| r.column == var) {
-                        required.push(Required::new(var, format!("term `{}`", term.label())));
-                    }
-                }
+                continue;
+            }
+            // The term `dbh` always means the first-measurement diameter, whatever `--dbh`
+            // names its column, so that model files stay projectable.
+            let column = if var == "dbh" {
+                data.names.dbh.as_str()
+            } else {
+                var
+            };
+            if !required.iter().any(|r| r.column == column) {
+                required.push(Required::new(column, format!("term `{}`", term.label())));
             }
         }
     }

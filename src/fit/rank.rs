@@ -106,7 +106,7 @@ fn check_candidates(spec: &RankSpec) -> Result<(), Error> {
     }
     let s = &spec.survival;
     for (i, c) in spec.candidates.iter().enumerate() {
-        let needs = term_needs(c, &s.data.use_columns)
+        let needs = term_needs(c, &s.data)
             .map_err(|e| Error::Usage(format!("candidate {} \"{c}\": {e}", i + 1)))?;
         for r in &needs.required {
             if !file_has_column(&s.data.path, &r.column) {
