@@ -34,7 +34,8 @@ fn expected_driver_writes_the_design_files() {
     let r = run_scenario(&s, &expected()).unwrap();
     let out = d.path().join("out");
     let written = write_projection(&out, &r).unwrap();
-    assert_eq!(written.len(), 7);
+    // summary, classes, harvest, run.json, survival.svg, stems.svg, report.html, trees.csv.
+    assert_eq!(written.len(), 8);
     let summary = lines(&out.join("summary.csv"));
     assert_eq!(
         summary[0],

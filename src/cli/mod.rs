@@ -2,6 +2,7 @@
 //! library calls. Only this layer and `main` print.
 
 mod check;
+mod compare;
 mod demo;
 mod fit;
 mod fit_args;
@@ -28,6 +29,8 @@ enum Command {
     Check(check::Args),
     /// Project one scenario: Monte Carlo replicates (or the expected-value trajectory).
     Project(project::Args),
+    /// Project several scenarios with common random numbers and compare them with the first.
+    Compare(compare::Args),
     /// Fit a survival or growth model from a remeasurement CSV.
     #[command(subcommand)]
     Fit(Box<fit::FitCommand>),
@@ -41,6 +44,7 @@ pub fn run(cli: Cli) -> Result<(), Error> {
         Command::Demo(a) => demo::run(&a),
         Command::Check(a) => check::run(&a),
         Command::Project(a) => project::run(&a),
+        Command::Compare(a) => compare::run(&a),
         Command::Fit(c) => fit::run(*c),
         Command::Rank(a) => rank::run(*a),
     }

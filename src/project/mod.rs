@@ -5,6 +5,7 @@
 
 mod actions;
 mod binomial;
+mod compare;
 mod drivers;
 pub mod evaluator;
 mod fastmath;
@@ -20,6 +21,9 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rayon::prelude::*;
 
+pub use compare::{
+    compare_scenarios, validate_comparison, CompareOptions, Comparison, DifferenceRow,
+};
 pub use result::{
     ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,
     TreeRow, YearSummary,
@@ -86,6 +90,16 @@ pub fn run_scenario_with_progress(
     o: &RunOptions,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<ProjectionResult, crate::Error> {
+    run_traced(s, o, progress).map(|(r, _)| r)
+}
+
+/// [`run_scenario_with_progress`], also returning every replicate's trace (in replicate order),
+/// which `compare` needs to pair replicates across scenarios.
+pub(crate) fn run_traced(
+    s: &Scenario,
+    o: &RunOptions,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<(ProjectionResult, Vec<Trace>), crate::Error> {
     let seed = o.seed.unwrap_or(s.seed);
     let replicates = if o.expected {
         1
@@ -135,7 +149,7 @@ pub fn run_scenario_with_progress(
     let warnings = warnings(s, &traces, &summaries);
     let harvest = engine.harvest.rows(&traces, !o.expected);
     let u = s.uncertainty;
-    Ok(ProjectionResult {
+    let result = ProjectionResult {
         scenario: s.name.clone(),
         stand: s.trees.stand.clone(),
         driver: if o.expected {
@@ -163,7 +177,8 @@ pub fn run_scenario_with_progress(
         harvest,
         inputs: s.inputs.clone(),
         warnings,
-    })
+    };
+    Ok((result, traces))
 }
 
 /// Basal area in strictly larger trees (m²/ha) for each record, in input order, computed the

@@ -4,19 +4,30 @@
 
 mod atomic;
 mod charts;
+mod charts_classes;
+mod compare;
 pub mod html;
+mod page;
+mod page_models;
 mod tables;
 
 use std::path::{Path, PathBuf};
 
 pub use atomic::write_files_atomically;
-pub use charts::{stems_chart_svg, survival_chart_svg};
+pub use charts::{
+    band_chart_svg, metric_label, metric_series, metrics_chart_svg, stems_chart_svg,
+    survival_chart_svg, Axes, BandPoint, Series,
+};
+pub use charts_classes::{distribution_chart_svg, distribution_years};
+pub use compare::{difference_chart_svg, differences_csv, render_comparison, write_comparison};
+pub use page::projection_report;
 pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
 
 use crate::project::{Driver, ProjectionResult};
 
-/// Render every output file of a projection: `summary.csv`, `classes.csv`, `harvest.csv`, `run.json`,
-/// `survival.svg`, `stems.svg` and, for the expected driver, `trees.csv`.
+/// Render every output file of a projection: `summary.csv`, `classes.csv`, `harvest.csv`,
+/// `run.json`, `survival.svg`, `stems.svg`, `report.html` and, for the expected driver,
+/// `trees.csv`.
 ///
 /// # Errors
 /// [`crate::Error::Io`] if a chart cannot be drawn.
@@ -31,6 +42,7 @@ pub fn render_projection(r: &ProjectionResult) -> Result<Vec<(String, Vec<u8>)>,
             survival_chart_svg(r)?.into_bytes(),
         ),
         ("stems.svg".to_string(), stems_chart_svg(r)?.into_bytes()),
+        ("report.html".to_string(), projection_report(r)?),
     ];
     if r.driver == Driver::Expected {
         files.push(("trees.csv".to_string(), trees_csv(r)));

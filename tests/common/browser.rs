@@ -1,6 +1,7 @@
 //! Render an HTML file in headless Chromium (Debian's `chromium`, installed by `.ci/run`):
 //! a PNG screenshot, the DOM after loading, and every console message.
 
+use std::io::Read;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
@@ -24,10 +25,14 @@ fn browser() -> Option<PathBuf> {
     if let Ok(p) = std::env::var("STEMCAST_CHROMIUM") {
         return Some(PathBuf::from(p));
     }
-    ["/usr/bin/chromium", "/usr/bin/chromium-browser", "/usr/bin/google-chrome"]
-        .iter()
-        .map(PathBuf::from)
-        .find(|p| p.exists())
+    [
+        "/usr/bin/chromium",
+        "/usr/bin/chromium-browser",
+        "/usr/bin/google-chrome",
+    ]
+    .iter()
+    .map(PathBuf::from)
+    .find(|p| p.exists())
 }
 
 fn run(bin: &Path, profile: &Path, extra: &[String], url: &str) -> (String, String) {
@@ -51,6 +56,29 @@ fn run(bin: &Path, profile: &Path, extra: &[String], url: &str) -> (String, Stri
         .stderr(Stdio::piped())
         .spawn()
         .expect("start chromium");
+    // Drain both pipes while waiting: a DOM larger than the pipe buffer (64 kB) would
+    // otherwise block Chromium on its write and never let it exit.
+    let drain = |pipe: Option<Box<dyn Read + Send>>| {
+        std::thread::spawn(move || {
+            let mut text = Vec::new();
+            if let Some(mut p) = pipe {
+                let _ = p.read_to_end(&mut text);
+            }
+            String::from_utf8_lossy(&text).into_owned()
+        })
+    };
+    let out = drain(
+        child
+            .stdout
+            .take()
+            .map(|p| Box::new(p) as Box<dyn Read + Send>),
+    );
+    let err = drain(
+        child
+            .stderr
+            .take()
+            .map(|p| Box::new(p) as Box<dyn Read + Send>),
+    );
     let start = Instant::now();
     while child.try_wait().expect("wait").is_none() {
         if start.elapsed() > Duration::from_secs(90) {
@@ -59,10 +87,9 @@ fn run(bin: &Path, profile: &Path, extra: &[String], url: &str) -> (String, Stri
         }
         std::thread::sleep(Duration::from_millis(50));
     }
-    let out = child.wait_with_output().expect("chromium output");
     (
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
+        out.join().expect("stdout reader"),
+        err.join().expect("stderr reader"),
     )
 }
 
