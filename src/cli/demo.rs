@@ -13,12 +13,14 @@ use stemcast::fit::survival::{fit_survival, SurvivalResponse, SurvivalSpec};
 use stemcast::fit::{DataOptions, Years};
 use stemcast::model::file::{GrowthResponse, IntervalKind};
 use stemcast::model::link::Link;
-use stemcast::project::{run_scenario, Metric, ProjectionResult, RunOptions};
+use stemcast::project::{compare_scenarios, validate_comparison, CompareOptions, Metric};
+use stemcast::project::{Comparison, ProjectionResult};
 use stemcast::scenario::Scenario;
 use stemcast::Error;
 
-/// The bundled demo scenarios (file name, text); their model paths point to `../models/`.
-const SCENARIOS: [(&str, &str); 2] = [
+/// The bundled demo scenarios (file name, text), the first being the baseline of the
+/// comparison; their model paths point to `../models/`.
+const SCENARIOS: [(&str, &str); 5] = [
     (
         "released.toml",
         include_str!("../../scenarios/released.toml"),
@@ -26,6 +28,15 @@ const SCENARIOS: [(&str, &str); 2] = [
     (
         "unreleased.toml",
         include_str!("../../scenarios/unreleased.toml"),
+    ),
+    ("thinned.toml", include_str!("../../scenarios/thinned.toml")),
+    (
+        "control_ends.toml",
+        include_str!("../../scenarios/control_ends.toml"),
+    ),
+    (
+        "density_limit.toml",
+        include_str!("../../scenarios/density_limit.toml"),
     ),
 ];
 
@@ -95,25 +106,60 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
 
     let scenario_dir = out.join("scenarios");
     mkdir(&scenario_dir)?;
+    let mut scenarios = Vec::with_capacity(SCENARIOS.len());
     for (file, text) in SCENARIOS {
         let path = scenario_dir.join(file);
         write_atomic(&path, text.as_bytes())?;
-        let scenario = Scenario::read(&path)?;
-        let result = run_scenario(&scenario, &RunOptions::default())?;
-        let dir = out.join("projections").join(&result.scenario);
-        stemcast::report::write_projection(&dir, &result)?;
-        print!("{}", projection_table(&result));
-        if !result.warnings.is_empty() {
-            println!(
-                "  {} warnings (extrapolation beyond the fitting data among them): see {}",
-                result.warnings.len(),
-                dir.join("run.json").display()
-            );
-        }
-        println!("  files: {}\n", dir.display());
+        scenarios.push(Scenario::read(&path)?);
     }
+    validate_comparison(&scenarios)?;
+    let comparison = compare_scenarios(&scenarios, &CompareOptions::default(), &|_, _| {})?;
+    let dir = out.join("comparison");
+    stemcast::report::write_comparison(&dir, &comparison, &scenarios)?;
+    for r in &comparison.results {
+        print!("{}", projection_table(r));
+    }
+    print!("{}", difference_table(&comparison));
+    let warnings: usize = comparison.results.iter().map(|r| r.warnings.len()).sum();
+    if warnings > 0 {
+        println!(
+            "{warnings} warnings, extrapolation beyond the fitting data among them: see the report"
+        );
+    }
+    println!(
+        "\nreport: {}\nfiles:  {} (summary.csv, differences.csv, harvest.csv, classes.csv, charts)\n",
+        dir.join("report.html").display(),
+        dir.display()
+    );
     println!("{}", summary::CAUTION);
     Ok(())
+}
+
+/// Stems/ha at the horizon: each scenario's mean difference from the baseline with its 90 %
+/// band from paired replicates.
+fn difference_table(c: &Comparison) -> String {
+    let Some(horizon) = c.differences.iter().map(|d| d.year).reduce(f64::max) else {
+        return String::new();
+    };
+    let mut out = format!(
+        "difference from \"{}\" in stems/ha at year {horizon} (paired replicates, 90 % band)\n",
+        c.results[0].scenario
+    );
+    for d in c
+        .differences
+        .iter()
+        .filter(|d| d.year == horizon && d.metric == Metric::StemsPerHa)
+    {
+        let f = |v: Option<f64>| v.map_or("–".to_string(), |x| format!("{x:+.0}"));
+        out.push_str(&format!(
+            "  {:<36} {:>6} [{} to {}]\n",
+            d.scenario,
+            f(d.mean),
+            f(d.p05),
+            f(d.p95)
+        ));
+    }
+    out
 }
 
 /// A short table of one projection: every 10 years, mean and 90 % band of stems/ha, and the

@@ -266,8 +266,11 @@ fn report(c: &Comparison, scenarios: &[Scenario], charts: Vec<Block>) -> Vec<u8>
                         "Every scenario ran {} Monte Carlo replicates with seed {}. Replicate r of every scenario uses the same random numbers for the same tree, sub-step and purpose (common random numbers), so the differences below are taken replicate by replicate and their bands show how sure the comparison is, not how variable each stand is.",
                         c.replicates, c.seed
                     )),
-                    Block::Paragraph(if any_warning { "Warnings:".into() } else { "No warnings.".into() }),
-                    warnings_block(rs, &c.warnings),
+                    Block::Paragraph(if any_warning {
+                        "Some projections carry trees outside the covariate ranges the models were fitted on, or raise other warnings: read the Warnings section at the end before relying on those years.".into()
+                    } else {
+                        "No warnings: every projection stayed within the covariate ranges of the fitting data.".into()
+                    }),
                 ],
             },
             settings_section(rs, &facts),
@@ -275,6 +278,14 @@ fn report(c: &Comparison, scenarios: &[Scenario], charts: Vec<Block>) -> Vec<u8>
             differences_section(c),
             steps_section(rs),
             models_section(&models),
+            Section {
+                heading: "Warnings".into(),
+                blocks: vec![if any_warning {
+                    warnings_block(rs, &c.warnings)
+                } else {
+                    Block::Paragraph("None.".into())
+                }],
+            },
         ],
     };
     render(&page).into_bytes()
