@@ -176,16 +176,21 @@ impl Stand {
             self.bal[j] = self.bal[i];
             j += usize::from(self.stems[i] > 0.0);
         }
+        self.truncate(j);
+    }
+
+    /// Keep the first `n` records (and scratch of that length).
+    pub fn truncate(&mut self, n: usize) {
         for v in [&mut self.dbh, &mut self.stems, &mut self.bal] {
-            v.truncate(j);
+            v.truncate(n);
         }
-        self.tree.truncate(j);
-        self.eta.truncate(j);
-        self.tmp.truncate(j);
+        self.tree.truncate(n);
+        self.eta.truncate(n);
+        self.tmp.truncate(n);
     }
 
     /// Restore descending DBH order after growth, in O(n) whatever the growth noise: a
-    /// counting sort into DBH buckets (about one record per two buckets) followed by an insertion
+    /// counting sort into DBH buckets (about one record per bucket) followed by an insertion
     /// pass that fixes the order inside buckets. Equal diameters keep their previous relative
     /// order, so the result is deterministic. Nothing is allocated once the scratch vectors
     /// have grown to the stand size.
@@ -199,17 +204,23 @@ impl Stand {
             lo = if d < lo { d } else { lo };
             hi = if d > hi { d } else { hi };
         }
-        let buckets = 4 * n;
+        // About one bucket per record: the prefix sum below is a serial chain over the
+        // buckets, so more buckets cost more than the longer insertion runs they save.
+        let buckets = n;
         let per_cm = (buckets - 1) as f64 / (hi - lo);
         let counts = &mut self.counts;
         counts.clear();
         counts.resize(buckets, 0);
-        self.key.clear();
-        for &d in &self.dbh {
-            // Descending: the largest tree falls in bucket 0.
-            let k = (((hi - d) * per_cm) as usize).min(buckets - 1);
+        fit(&mut self.key, n, 0);
+        for (key, &d) in self.key.iter_mut().zip(&self.dbh) {
+            // Descending: the largest tree falls in bucket 0. Why not `as usize`: Rust's
+            // saturating float-to-unsigned conversion costs about fifteen instructions on
+            // x86-64; adding 2⁵² instead leaves round(x) in the low mantissa bits (x is in
+            // [0, buckets − 1]), and any monotone bucketing is correct here.
+            let x = (hi - d) * per_cm + TWO_52;
+            let k = (x.to_bits().wrapping_sub(TWO_52.to_bits()) as usize).min(buckets - 1);
             counts[k] += 1;
-            self.key.push(k as u32);
+            *key = k as u32;
         }
         // Exclusive prefix sum kept in a register (no store-to-load chain through memory).
         let mut start = 0;
@@ -264,6 +275,9 @@ impl Stand {
         }
     }
 }
+
+/// 2⁵²: for 0 ≤ x < 2⁵¹, the bits of x + 2⁵² minus those of 2⁵² are round(x).
+const TWO_52: f64 = 4_503_599_627_370_496.0;
 
 /// Resize `v` to `n` without touching the kept elements (they are all overwritten).
 fn fit<T: Copy>(v: &mut Vec<T>, n: usize, fill: T) {

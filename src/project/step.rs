@@ -174,12 +174,23 @@ pub(crate) fn sub_step(
         }
         Mortality::Bernoulli(stream) => {
             let s = rng::absorb(stream, k);
-            for ((e, &p), &t) in stems.iter_mut().zip(probability).zip(tree.iter()) {
-                // A select rather than a branch: deaths are random, so a branch mispredicts.
-                let alive = rng::uniform(rng::absorb(s, t as u64)) < p;
-                *e = if alive { *e } else { 0.0 };
-                survived += *e;
+            // Mortality and compaction in one pass: every record is copied to slot j, which
+            // advances only for survivors (a select rather than a branch: deaths are random,
+            // so a branch would mispredict). Later loops then see only live records.
+            let n = dbh.len();
+            let mut j = 0;
+            for i in 0..n {
+                let t = tree[i];
+                let alive = rng::uniform(rng::absorb(s, t as u64)) < probability[i];
+                let e = if alive { stems[i] } else { 0.0 };
+                survived += e;
+                dbh[j] = dbh[i];
+                bal[j] = bal[i];
+                stems[j] = e;
+                tree[j] = t;
+                j += usize::from(e > 0.0);
             }
+            stand.truncate(j);
         }
         Mortality::Binomial(stream, area) => {
             let s = rng::absorb(stream, k);
@@ -194,7 +205,7 @@ pub(crate) fn sub_step(
             }
         }
     }
-    if !matches!(ctx.mortality, Mortality::Expected) {
+    if matches!(ctx.mortality, Mortality::Binomial(..)) {
         stand.compact();
     }
     grow(stand, ctx, &totals, k);
