@@ -39,6 +39,8 @@ pub(crate) struct Stand {
     pub bal: Vec<f64>,
     pub eta: Vec<f64>,
     pub tmp: Vec<f64>,
+    /// Scratch: the uniforms behind the growth residuals.
+    pub uniform: Vec<f64>,
     /// Expected driver: product of survival probabilities per record, indexed by record (not
     /// by position), so removals by thinning do not count as mortality.
     pub survival_by_record: Vec<f64>,
@@ -84,7 +86,12 @@ impl Stand {
         self.dbh.clone_from(&init.dbh);
         self.stems.clone_from(&init.stems);
         self.tree.clone_from(&init.tree);
-        for v in [&mut self.bal, &mut self.eta, &mut self.tmp] {
+        for v in [
+            &mut self.bal,
+            &mut self.eta,
+            &mut self.tmp,
+            &mut self.uniform,
+        ] {
             v.clear();
             v.resize(n, 0.0);
         }
@@ -130,30 +137,24 @@ impl Stand {
     /// Totals without touching `bal`, summed with Kahan's compensation so that reported
     /// totals do not carry rounding noise from the summation order.
     pub fn totals(&self) -> Totals {
-        // Four interleaved compensated sums hide the latency of the compensation chain.
-        let mut sq = [Kahan::default(); 4];
-        let mut stems = [Kahan::default(); 4];
+        // Four interleaved compensated sums hide the latency of the compensation chain. The
+        // lanes are plain arrays (not an array of structs) so that pairs of lanes share SIMD
+        // registers; each lane does exactly the operations of a scalar Kahan sum.
+        let mut sq = KahanLanes::default();
+        let mut stems = KahanLanes::default();
         let mut d4 = self.dbh.chunks_exact(4);
         let mut e4 = self.stems.chunks_exact(4);
         for (d, e) in (&mut d4).zip(&mut e4) {
-            for k in 0..4 {
-                sq[k].add(e[k] * d[k] * d[k]);
-                stems[k].add(e[k]);
-            }
+            let d: [f64; 4] = [d[0], d[1], d[2], d[3]];
+            let e: [f64; 4] = [e[0], e[1], e[2], e[3]];
+            sq.add(std::array::from_fn(|k| e[k] * d[k] * d[k]));
+            stems.add(e);
         }
         for (&d, &e) in d4.remainder().iter().zip(e4.remainder()) {
-            sq[0].add(e * d * d);
-            stems[0].add(e);
+            sq.add_first(e * d * d);
+            stems.add_first(e);
         }
-        let total = |lanes: [Kahan; 4]| {
-            let mut k = Kahan::default();
-            for lane in lanes {
-                k.add(lane.sum);
-                k.add(-lane.compensation);
-            }
-            k.value()
-        };
-        let (sq, stems) = (total(sq), total(stems));
+        let (sq, stems) = (sq.total(), stems.total());
         Totals {
             stems,
             ba: sq * M2_PER_CM2,
@@ -187,10 +188,11 @@ impl Stand {
         self.tree.truncate(n);
         self.eta.truncate(n);
         self.tmp.truncate(n);
+        self.uniform.truncate(n);
     }
 
     /// Restore descending DBH order after growth, in O(n) whatever the growth noise: a
-    /// counting sort into DBH buckets (about one record per bucket) followed by an insertion
+    /// counting sort into DBH buckets (four per record) followed by an insertion
     /// pass that fixes the order inside buckets. Equal diameters keep their previous relative
     /// order, so the result is deterministic. Nothing is allocated once the scratch vectors
     /// have grown to the stand size.
@@ -204,9 +206,11 @@ impl Stand {
             lo = if d < lo { d } else { lo };
             hi = if d > hi { d } else { hi };
         }
-        // About one bucket per record: the prefix sum below is a serial chain over the
-        // buckets, so more buckets cost more than the longer insertion runs they save.
-        let buckets = n;
+        // Four buckets per record: fewer buckets execute fewer instructions (the prefix sum
+        // is a serial chain over the buckets) but run slower, because the insertion pass
+        // then meets more inversions and its branches mispredict (measured: n buckets about
+        // 15 % slower overall on PROJECT-W2 than 4n; 8n no better than 4n).
+        let buckets = 4 * n;
         let per_cm = (buckets - 1) as f64 / (hi - lo);
         let counts = &mut self.counts;
         counts.clear();
@@ -306,6 +310,46 @@ impl Kahan {
 
     fn value(self) -> f64 {
         self.sum
+    }
+}
+
+/// Four independent Kahan sums, stored lane-wise.
+#[derive(Debug, Default, Clone, Copy)]
+struct KahanLanes {
+    sum: [f64; 4],
+    compensation: [f64; 4],
+}
+
+impl KahanLanes {
+    #[inline(always)]
+    fn add(&mut self, x: [f64; 4]) {
+        for ((s, c), x) in self.sum.iter_mut().zip(&mut self.compensation).zip(x) {
+            let y = x - *c;
+            let t = *s + y;
+            *c = (t - *s) - y;
+            *s = t;
+        }
+    }
+
+    #[inline]
+    fn add_first(&mut self, x: f64) {
+        let mut lane = Kahan {
+            sum: self.sum[0],
+            compensation: self.compensation[0],
+        };
+        lane.add(x);
+        self.sum[0] = lane.sum;
+        self.compensation[0] = lane.compensation;
+    }
+
+    /// The lanes' sums and compensations combined in lane order.
+    fn total(self) -> f64 {
+        let mut k = Kahan::default();
+        for (s, c) in self.sum.into_iter().zip(self.compensation) {
+            k.add(s);
+            k.add(-c);
+        }
+        k.value()
     }
 }
 
