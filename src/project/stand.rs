@@ -118,7 +118,8 @@ impl Stand {
                 base = cum;
                 prev = d;
             }
-            *bal = base;
+            // Scaled here rather than in a second pass: the same product, one pass fewer.
+            *bal = base * M2_PER_CM2;
             cum += e * d * d;
             stems += e;
         }
@@ -128,9 +129,6 @@ impl Stand {
         } else {
             f64::NAN
         };
-        for b in &mut self.bal {
-            *b *= M2_PER_CM2;
-        }
         Totals { stems, ba, qmd }
     }
 
