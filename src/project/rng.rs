@@ -265,6 +265,28 @@ mod tests {
     }
 
     #[test]
+    fn scaled_normals_equal_the_scalar_inversion_bit_for_bit() {
+        // The two-pass array form must reproduce sigma * acklam(u) exactly, tails included
+        // (derived: both evaluate the same expressions in the same order).
+        let u: Vec<f64> = (0..20_000)
+            .map(|i| uniform(draw(11, 0, i)))
+            .chain([
+                1e-12,
+                0.02425,
+                0.024_249_999,
+                0.975_75,
+                0.975_750_001,
+                1.0 - 1e-12,
+            ])
+            .collect();
+        let mut z = vec![0.0; u.len()];
+        scaled_normals(&u, 0.4, &mut z);
+        for (&p, &got) in u.iter().zip(&z) {
+            assert_eq!(got.to_bits(), (0.4 * acklam(p)).to_bits(), "u {p}");
+        }
+    }
+
+    #[test]
     fn uniforms_have_mean_one_half_and_normals_unit_variance() {
         // Derived analytically: E U = 1/2, Var Z = 1; 4 standard errors at n = 100 000.
         let s = stream(7, Purpose::Survival, 0, 0);
