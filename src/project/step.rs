@@ -174,12 +174,34 @@ pub(crate) fn sub_step(
         }
         Mortality::Bernoulli(stream) => {
             let s = rng::absorb(stream, k);
-            for ((e, &p), &t) in stems.iter_mut().zip(probability).zip(tree.iter()) {
-                // A select rather than a branch: deaths are random, so a branch mispredicts.
-                let alive = rng::uniform(rng::absorb(s, t as u64)) < p;
-                *e = if alive { *e } else { 0.0 };
-                survived += *e;
+            // Mortality and compaction in one pass: every record is copied to slot j, which
+            // advances only for survivors (a select rather than a branch: deaths are random,
+            // so a branch would mispredict). Later loops then see only live records.
+            // Slices of one known length: the bounds checks on `i` fold away and the
+            // vectors' pointers stay in registers instead of being reloaded after each store.
+            let n = dbh.len();
+            let (dbh, bal, stems, tree) = (
+                &mut dbh[..n],
+                &mut bal[..n],
+                &mut stems[..n],
+                &mut tree[..n],
+            );
+            let probability = &probability[..n];
+            let mut j = 0;
+            for i in 0..n {
+                let t = tree[i];
+                let alive = rng::uniform(rng::absorb(s, t as u64)) < probability[i];
+                let e = if alive { stems[i] } else { 0.0 };
+                survived += e;
+                // j ≤ i < n; `min` tells the compiler so, which removes four bounds checks.
+                let slot = j.min(i);
+                dbh[slot] = dbh[i];
+                bal[slot] = bal[i];
+                stems[slot] = e;
+                tree[slot] = t;
+                j += usize::from(e > 0.0);
             }
+            stand.truncate(j);
         }
         Mortality::Binomial(stream, area) => {
             let s = rng::absorb(stream, k);
@@ -194,7 +216,7 @@ pub(crate) fn sub_step(
             }
         }
     }
-    if !matches!(ctx.mortality, Mortality::Expected) {
+    if matches!(ctx.mortality, Mortality::Binomial(..)) {
         stand.compact();
     }
     grow(stand, ctx, &totals, k);
@@ -212,6 +234,7 @@ fn grow(stand: &mut Stand, ctx: &StepContext, totals: &Totals, k: u64) {
         bal,
         eta,
         tmp,
+        uniform,
         ..
     } = stand;
     let cov = Covariates {
@@ -230,9 +253,10 @@ fn grow(stand: &mut Stand, ctx: &StepContext, totals: &Totals, k: u64) {
     match ctx.residuals {
         Some(stream) => {
             let s = rng::absorb(stream, k / g.sub_steps_per_period);
-            for (z, &t) in tmp.iter_mut().zip(tree.iter()) {
-                *z = g.sigma * rng::normal(rng::absorb(s, t as u64));
+            for (u, &t) in uniform.iter_mut().zip(tree.iter()) {
+                *u = rng::uniform(rng::absorb(s, t as u64));
             }
+            rng::scaled_normals(uniform, g.sigma, tmp);
         }
         None => {
             let mean = match g.response {
