@@ -6,18 +6,8 @@
 use plotters::prelude::*;
 
 use super::survival::SurvivalFit;
+use crate::report::PALETTE;
 use crate::Error;
-
-/// Line colours: a blue–orange axis with alternating lightness, which stays distinguishable
-/// under the common red–green colour-vision deficiencies and in greyscale.
-const PALETTE: [RGBColor; 6] = [
-    RGBColor(0x1b, 0x4f, 0x8a),
-    RGBColor(0xe0, 0x8a, 0x1e),
-    RGBColor(0x6c, 0xb4, 0xe0),
-    RGBColor(0x8c, 0x4a, 0x00),
-    RGBColor(0x5a, 0x5a, 0x5a),
-    RGBColor(0xf2, 0xc1, 0x4e),
-];
 
 fn chart_error(e: impl std::fmt::Display) -> Error {
     Error::Usage(format!("--calibration-svg: cannot draw the chart: {e}"))

@@ -4,6 +4,7 @@
 
 mod atomic;
 mod charts;
+pub(crate) use charts::PALETTE;
 mod charts_classes;
 mod compare;
 pub mod html;
