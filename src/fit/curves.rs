@@ -130,7 +130,9 @@ pub fn survival_curves(
         curves.push((level.clone().unwrap_or_else(|| "fitted".into()), points));
     }
     let period = match (spec.interval, data.period_years) {
-        (IntervalKind::Fixed, Some(p)) => format!("over {p} years"),
+        (IntervalKind::Fixed, Some(p)) => {
+            format!("over {p} year{}", if p == 1.0 { "" } else { "s" })
+        }
         (IntervalKind::Fixed, None) => "over the remeasurement interval".into(),
         _ => "per year".into(),
     };

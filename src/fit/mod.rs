@@ -142,7 +142,7 @@ pub fn common_interval(years: &[f64], source: &str) -> Result<f64, ModelError> {
     let tol = crate::tolerance::INTERVAL_RTOL * median;
     if (hi - median).abs() > tol || (median - lo).abs() > tol {
         return Err(ModelError::Invalid(format!(
-            "{source}: remeasurement intervals range from {lo} to {hi} years, more than 5 % apart; a fixed-interval model needs equal intervals: use --interval annualized (P = p^L) or --interval exposure (cloglog with offset ln L)"
+            "{source}: remeasurement intervals range from {lo} to {hi} years, not all within 5 % of their median {median}; a fixed-interval model needs equal intervals: use --interval annualized (P = p^L) or --interval exposure (cloglog with offset ln L)"
         )));
     }
     Ok(median)

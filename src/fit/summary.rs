@@ -84,7 +84,7 @@ pub fn growth_text(fit: &GrowthFit, source: &str) -> String {
         GrowthResponse::Column => "the response column as given (not projectable)".to_string(),
     };
     let period = match fit.period_years {
-        Some(p) => format!(" over {p} years"),
+        Some(p) => format!(" over {p} year{}", if p == 1.0 { "" } else { "s" }),
         None => String::new(),
     };
     let mut out = format!("stemcast growth fit — least squares on {response}{period}\n");

@@ -72,7 +72,11 @@ pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
     let d = &fit.diagnostics;
     let z975 = Normal::standard().inverse_cdf(0.975);
     let what = match (fit.interval, fit.period_years) {
-        (IntervalKind::Fixed, Some(p)) => format!("P({} over {p} years)", fit.outcome),
+        (IntervalKind::Fixed, Some(p)) => format!(
+            "P({} over {p} year{})",
+            fit.outcome,
+            if p == 1.0 { "" } else { "s" }
+        ),
         (IntervalKind::Fixed, None) => {
             format!("P({}) over the remeasurement interval", fit.outcome)
         }

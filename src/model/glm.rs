@@ -273,7 +273,7 @@ pub fn fit_glm_with(
     if !fit.converged {
         let hint = if fit.iterations >= control.max_iterations {
             format!(
-                "the limit of {} iterations was reached; raise it, or check the data for extreme values or try another link",
+                "the limit of {} iterations was reached: raise it (--max-iterations), check the data for extreme values, or try another link",
                 control.max_iterations
             )
         } else {

@@ -14,7 +14,6 @@ pub mod link;
 pub mod robust;
 pub mod separation;
 pub mod stored;
-pub mod survival;
 pub mod terms;
 
 use crate::data::DataError;
@@ -51,7 +50,7 @@ pub enum ModelError {
     },
     /// The iterative fit did not converge (a runtime failure, exit code 1).
     #[error(
-        "the fit did not converge in {iterations} iterations (last deviance {deviance}); {hint}"
+        "the fit did not converge in {iterations} iterations (last deviance {deviance:.6}); {hint}"
     )]
     NotConverged {
         /// Iterations performed.

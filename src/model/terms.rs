@@ -305,7 +305,7 @@ fn check_zero_safe(var: &str, transform: Transform) -> Result<(), String> {
     }
     match transform {
         Transform::Ln => Err(format!(
-            "`{var}` can be zero (for example the largest tree has bal = 0), so ln({var}) is undefined; use ln({var}+1)"
+            "`{var}` can be zero (bal is 0 for the largest tree of a stand; ba and stems are 0 in an empty stand), so ln({var}) is undefined; use ln({var}+1)"
         )),
         Transform::Power(k) if k < 0 => Err(format!(
             "`{var}` can be zero, so a negative power is undefined; use ln({var}+1) or a positive power"
