@@ -3,7 +3,7 @@
 use serde_json::{json, Value};
 
 use super::rank::Ranking;
-use super::summary::{fmt_p, CAUTION};
+use super::summary::{p_clause, CAUTION};
 
 fn num(v: Option<f64>, digits: usize) -> String {
     match v {
@@ -53,12 +53,12 @@ pub fn rank_text(r: &Ranking) -> String {
         out.push_str("\n  nested candidates, likelihood-ratio tests:\n");
         for n in &r.nested {
             out.push_str(&format!(
-                "    \"{}\" within \"{}\": G = {:.4} on {} df, p = {}\n",
+                "    \"{}\" within \"{}\": G = {:.4} on {} df, {}\n",
                 n.reduced,
                 n.full,
                 n.test.statistic,
                 n.test.df,
-                fmt_p(n.test.p_value)
+                p_clause(n.test.p_value)
             ));
         }
     }

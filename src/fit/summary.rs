@@ -21,6 +21,15 @@ pub(crate) fn fmt_p(p: f64) -> String {
     }
 }
 
+/// "p = 0.0123" or "p < 1e-16", for sentences.
+pub(crate) fn p_clause(p: f64) -> String {
+    if p < 1e-16 {
+        "p < 1e-16".into()
+    } else {
+        format!("p = {}", fmt_p(p))
+    }
+}
+
 pub(crate) fn fmt_num(v: f64) -> String {
     if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
         format!("{v:.4e}")

@@ -5,7 +5,7 @@ use statrs::distribution::{ContinuousCDF, Normal};
 
 use super::estimate::Estimator;
 use super::judge::Calibration;
-use super::summary::{coefficient_table, fmt_num, fmt_p, warnings_block, CAUTION};
+use super::summary::{coefficient_table, fmt_num, fmt_p, p_clause, warnings_block, CAUTION};
 use super::survival::SurvivalFit;
 use crate::model::diagnostics::Unavailable;
 use crate::model::file::{CovarianceKind, IntervalKind};
@@ -135,14 +135,10 @@ pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
     let reason = |u: &Unavailable| format!("not available: {u}");
     out.push_str(&match &d.lr_test_vs_null {
         Ok(lr) => format!(
-            "  likelihood ratio vs intercept-only: {:.4} on {} df, p {}\n",
+            "  likelihood ratio vs intercept-only: {:.4} on {} df, {}\n",
             lr.statistic,
             lr.df,
-            if lr.p_value < 1e-16 {
-                "< 1e-16".to_string()
-            } else {
-                format!("= {}", fmt_p(lr.p_value))
-            }
+            p_clause(lr.p_value)
         ),
         Err(u) => format!("  likelihood ratio vs intercept-only: {}\n", reason(u)),
     });
