@@ -1,5 +1,5 @@
 //! Diameter distributions (`classes.csv` data) at a few years, one panel per year side by side,
-//! one bar per scenario in each DBH class with a whisker for its 90 % band.
+//! one line per scenario through the class means with its 90 % band shaded.
 
 use plotters::prelude::*;
 
@@ -64,7 +64,6 @@ pub fn distribution_chart_svg(
             .map_err(|e| fail(&e))?;
         let (body, legend) = root.split_vertically(size.1 - 72);
         let panels = body.split_evenly((1, years.len().max(1)));
-        let bar = width_cm * 0.8 / results.len().max(1) as f64;
         for (panel, &year) in panels.iter().zip(years) {
             let mut c = ChartBuilder::on(panel)
                 .caption(
@@ -77,7 +76,7 @@ pub fn distribution_chart_svg(
                 .build_cartesian_2d(0.0..x_max, 0.0..y_max)
                 .map_err(|e| fail(&e))?;
             c.configure_mesh()
-                .x_desc("DBH class, lower bound (cm)")
+                .x_desc("DBH (cm); points at class midpoints")
                 .y_desc("Stems per hectare (stems/ha)")
                 .axis_desc_style(("sans-serif", 13).into_font().color(&INK))
                 .label_style(("sans-serif", 12).into_font().color(&INK))
@@ -89,23 +88,29 @@ pub fn distribution_chart_svg(
                 .map_err(|e| fail(&e))?;
             for (i, r) in results.iter().enumerate() {
                 let col = colour(i);
-                let classes = r.classes.iter().filter(|c| c.year == year);
-                for cl in classes {
-                    let x0 = cl.lower_cm + width_cm * 0.1 + bar * i as f64;
-                    c.draw_series(std::iter::once(Rectangle::new(
-                        [(x0, 0.0), (x0 + bar, cl.mean)],
-                        col.mix(0.85).filled(),
-                    )))
+                let mut classes: Vec<_> = r.classes.iter().filter(|c| c.year == year).collect();
+                classes.sort_by(|a, b| a.lower_cm.total_cmp(&b.lower_cm));
+                let mid = |lower: f64| lower + width_cm / 2.0;
+                // The 90 % band as a light area behind the line of means (a frequency polygon
+                // per scenario stays readable where side-by-side bars do not).
+                let band: Vec<(f64, f64)> = classes
+                    .iter()
+                    .map(|c| (mid(c.lower_cm), c.p95.unwrap_or(c.mean)))
+                    .chain(
+                        classes
+                            .iter()
+                            .rev()
+                            .map(|c| (mid(c.lower_cm), c.p05.unwrap_or(c.mean))),
+                    )
+                    .collect();
+                c.draw_series(std::iter::once(Polygon::new(band, col.mix(0.14).filled())))
                     .map_err(|e| fail(&e))?;
-                    if let (Some(lo), Some(hi)) = (cl.p05, cl.p95) {
-                        let xm = x0 + bar / 2.0;
-                        c.draw_series(std::iter::once(PathElement::new(
-                            [(xm, lo), (xm, hi)],
-                            INK.stroke_width(1),
-                        )))
-                        .map_err(|e| fail(&e))?;
-                    }
-                }
+                let means: Vec<(f64, f64)> =
+                    classes.iter().map(|c| (mid(c.lower_cm), c.mean)).collect();
+                c.draw_series(LineSeries::new(means.clone(), col.stroke_width(2)))
+                    .map_err(|e| fail(&e))?;
+                c.draw_series(means.iter().map(|&p| Circle::new(p, 3, col.filled())))
+                    .map_err(|e| fail(&e))?;
             }
         }
         draw_legend(&legend, results).map_err(|e| fail(&e))?;
@@ -123,20 +128,16 @@ fn draw_legend<DB: DrawingBackend>(
     let font = ("sans-serif", 13).into_font().color(&INK);
     let mut x = 24i32;
     for (i, r) in results.iter().enumerate() {
-        area.draw(&Rectangle::new(
-            [(x, 24), (x + 16, 38)],
-            colour(i).mix(0.85).filled(),
+        area.draw(&PathElement::new(
+            [(x, 10), (x + 18, 10)],
+            colour(i).stroke_width(3),
         ))?;
-        area.draw(&Text::new(r.scenario.clone(), (x + 22, 25), font.clone()))?;
+        area.draw(&Text::new(r.scenario.clone(), (x + 24, 3), font.clone()))?;
         x += 40 + 8 * r.scenario.chars().count() as i32;
     }
-    area.draw(&PathElement::new(
-        [(x + 8, 22), (x + 8, 40)],
-        INK.stroke_width(1),
-    ))?;
     area.draw(&Text::new(
-        "bar: mean; whisker: 90 % band across replicates",
-        (x + 16, 25),
+        "line: mean stems/ha per DBH class; shaded: 90 % band across replicates",
+        (24, 26),
         font,
     ))?;
     Ok(())

@@ -217,9 +217,10 @@ pub(crate) fn caution() -> String {
     let c = crate::fit::summary::CAUTION;
     let rest = c.strip_prefix("Caution: ").unwrap_or(c);
     let mut chars = rest.chars();
-    chars
+    let text: String = chars
         .next()
-        .map_or(String::new(), |f| f.to_uppercase().chain(chars).collect())
+        .map_or(String::new(), |f| f.to_uppercase().chain(chars).collect());
+    format!("{text} No ingrowth or regeneration is modelled: a projection follows the trees present at its start.")
 }
 
 /// Every warning, prefixed with its scenario.
