@@ -59,5 +59,14 @@ pub fn render_projection(r: &ProjectionResult) -> Result<Vec<(String, Vec<u8>)>,
 /// place by this call are removed again, and a folder this call created is removed.
 pub fn write_projection(dir: &Path, r: &ProjectionResult) -> Result<Vec<PathBuf>, crate::Error> {
     let files = render_projection(r)?;
-    write_files_atomically(dir, &files)
+    let written = write_files_atomically(dir, &files)?;
+    // A Monte Carlo run into a folder that holds an earlier expected run's trees.csv would
+    // otherwise leave that file beside results it does not belong to.
+    if !files.iter().any(|(name, _)| name == "trees.csv") {
+        let stale = dir.join("trees.csv");
+        if stale.exists() {
+            std::fs::remove_file(&stale).map_err(|e| crate::Error::io(&stale, e))?;
+        }
+    }
+    Ok(written)
 }
