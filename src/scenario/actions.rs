@@ -17,6 +17,9 @@ pub struct Action {
     pub at: u64,
     /// What it does.
     pub kind: ActionKind,
+    /// The assignments of a `set` action as written (`treatment = "unreleased"`), for
+    /// descriptions; empty for other actions.
+    pub assignments: Vec<String>,
 }
 
 impl Action {
@@ -35,7 +38,7 @@ impl Action {
                     ThinTarget::RemoveFraction(f) => format!("{from}, removing {f} of the stems"),
                 }
             }
-            ActionKind::Set(v) => format!("set {} attribute(s) of every tree", v.len()),
+            ActionKind::Set(_) => format!("set {} for every tree", self.assignments.join(", ")),
             ActionKind::DensityLimit { max_sdi } => format!(
                 "density limit SDI {max_sdi}, in force from then on: the smallest trees die at the end of every sub-step until the stand is at the limit"
             ),
@@ -132,6 +135,12 @@ pub(crate) fn validate(
             ));
         }
         let at = (steps * step_years / sub_step_years).round() as u64;
+        let assignments: Vec<String> = a
+            .set
+            .iter()
+            .flatten()
+            .map(|(name, value)| format!("{name} = {value}"))
+            .collect();
         let kind = match (&a.thin, &a.set, &a.density_limit) {
             (Some(t), None, None) => ActionKind::Thin {
                 from: t.from,
@@ -167,6 +176,7 @@ pub(crate) fn validate(
             year: a.year,
             at,
             kind,
+            assignments,
         });
     }
     Ok(out)
