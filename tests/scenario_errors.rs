@@ -215,6 +215,19 @@ fn growth_model_with_response_column_cannot_be_projected() {
 }
 
 #[test]
+fn empty_name_and_negative_start_age() {
+    assert_bad(
+        &scenario_toml(20, 5, 10, "", COHORT).replace("name = \"t\"", "name = \" \""),
+        &["sc.toml", "name", "empty"],
+    );
+    assert_bad(
+        &scenario_toml(20, 5, 10, "", COHORT)
+            .replace("seed = 42", "seed = 42\nstart_age_years = -4"),
+        &["sc.toml", "start_age_years", "-4"],
+    );
+}
+
+#[test]
 fn negative_replicates() {
     assert_bad(
         &scenario_toml(20, 5, 10, "", COHORT).replace("replicates = 10", "replicates = -3"),

@@ -139,6 +139,23 @@ impl Scenario {
         };
         whole("horizon_years", raw.horizon_years)?;
         whole("step_years", raw.step_years)?;
+        if raw.name.trim().is_empty() {
+            return Err(err(
+                "name",
+                "is empty; give the scenario a name for the outputs".into(),
+            )
+            .into());
+        }
+        if let Some(age) = raw
+            .start_age_years
+            .filter(|a| !(*a >= 0.0 && a.is_finite()))
+        {
+            return Err(err(
+                "start_age_years",
+                format!("{age} is not a stand age in years"),
+            )
+            .into());
+        }
         if !is_multiple(raw.horizon_years, raw.step_years) {
             return Err(err(
                 "horizon_years",
