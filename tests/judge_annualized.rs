@@ -2,12 +2,9 @@
 
 mod common;
 
+use common::fixtures::close;
 use common::{stderr, stdout, Sandbox};
 use serde_json::Value;
-
-fn close(got: f64, want: f64, rtol: f64, atol: f64) -> bool {
-    (got - want).abs() <= atol + rtol * want.abs()
-}
 
 fn logit(p: f64) -> f64 {
     (p / (1.0 - p)).ln()

@@ -3,33 +3,9 @@
 
 mod common;
 
-use std::path::PathBuf;
-
+use common::fixtures::{close, expected, fixture, numbers};
 use common::{stderr, stdout, Sandbox};
 use serde_json::Value;
-
-fn fixture(name: &str) -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures")
-        .join(name)
-}
-
-fn expected(case: &str) -> Value {
-    let text = std::fs::read_to_string(fixture(&format!("{case}.json"))).expect("fixture");
-    serde_json::from_str::<Value>(&text).expect("fixture JSON")["expected"].clone()
-}
-
-fn close(got: f64, want: f64, rtol: f64, atol: f64) -> bool {
-    (got - want).abs() <= atol + rtol * want.abs()
-}
-
-fn numbers(v: &Value) -> Vec<f64> {
-    v.as_array()
-        .expect("array")
-        .iter()
-        .map(|x| x.as_f64().expect("number"))
-        .collect()
-}
 
 #[test]
 fn cluster_robust_standard_errors_match_lung_cloglog_cluster() {

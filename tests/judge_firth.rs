@@ -2,32 +2,13 @@
 
 mod common;
 
-use std::path::PathBuf;
-
+use common::fixtures::{close, fixture, numbers};
 use common::{stderr, stdout, Sandbox};
 use serde_json::Value;
-
-fn fixture(name: &str) -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures")
-        .join(name)
-}
 
 fn case(name: &str) -> Value {
     let text = std::fs::read_to_string(fixture(&format!("{name}.json"))).expect("fixture");
     serde_json::from_str(&text).expect("fixture JSON")
-}
-
-fn close(got: f64, want: f64, rtol: f64, atol: f64) -> bool {
-    (got - want).abs() <= atol + rtol * want.abs()
-}
-
-fn numbers(v: &Value) -> Vec<f64> {
-    v.as_array()
-        .expect("array")
-        .iter()
-        .map(|x| x.as_f64().expect("number"))
-        .collect()
 }
 
 /// `fit survival` arguments of a fixture case, as conformance.py `fit_cmd` builds them.
