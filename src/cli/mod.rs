@@ -1,6 +1,7 @@
 //! Command-line interface: argument structs (clap derive) and the glue that turns them into
 //! library calls. Only this layer and `main` print.
 
+mod batch;
 mod check;
 mod compare;
 mod demo;
@@ -29,6 +30,8 @@ enum Command {
     Check(check::Args),
     /// Project one scenario: Monte Carlo replicates (or the expected-value trajectory).
     Project(project::Args),
+    /// Project one scenario for every stand of a tree list into one long CSV.
+    Batch(batch::Args),
     /// Project several scenarios with common random numbers and compare them with the first.
     Compare(compare::Args),
     /// Fit a survival or growth model from a remeasurement CSV.
@@ -45,6 +48,7 @@ pub fn run(cli: Cli) -> Result<(), Error> {
         Command::Check(a) => check::run(&a),
         Command::Project(a) => project::run(&a),
         Command::Compare(a) => compare::run(&a),
+        Command::Batch(a) => batch::run(&a),
         Command::Fit(c) => fit::run(*c),
         Command::Rank(a) => rank::run(*a),
     }

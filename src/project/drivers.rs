@@ -84,8 +84,7 @@ impl<'a> Engine<'a> {
     ) -> Trace {
         let s = self.s;
         let u = s.uncertainty;
-        // `project` runs one stand; `batch` will key each stand by its index in the input.
-        let stand_key = 0;
+        let stand_key = rng::stand_key(&s.trees.stand);
         let (survival_coefs, growth_coefs) = match (replicate, &self.factors) {
             (Some(r), Some((fs, fg))) => {
                 let stream = rng::stream(self.seed, Purpose::Parameters, stand_key, r);

@@ -4,6 +4,7 @@
 //! Entry point: [`run_scenario`] (or [`run_scenario_with_progress`]).
 
 mod actions;
+mod batch;
 mod binomial;
 mod compare;
 mod drivers;
@@ -21,6 +22,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rayon::prelude::*;
 
+pub use batch::{run_batch, stand_hash, BatchCounts, BatchOptions, Shard};
 pub use compare::{
     compare_scenarios, validate_comparison, CompareOptions, Comparison, DifferenceRow,
 };

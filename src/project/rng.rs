@@ -29,6 +29,20 @@ pub(crate) fn absorb(state: u64, field: u64) -> u64 {
     mix(state ^ field.wrapping_add(1).wrapping_mul(GOLDEN))
 }
 
+/// The stand component of the random key: a 64-bit hash of the stand id's bytes, so a stand
+/// draws the same numbers whatever file, shard or position it comes in. It is offset so that
+/// the default stand id `1` (a one-stand tree list without a stand column, a generated
+/// cohort) keys as 0, as every `project` run did before stands were keyed by id.
+pub(crate) fn stand_key(id: &str) -> u64 {
+    fn hash(id: &str) -> u64 {
+        let h = id
+            .bytes()
+            .fold(absorb(0, id.len() as u64), |h, b| absorb(h, u64::from(b)));
+        mix(h)
+    }
+    hash(id) ^ hash("1")
+}
+
 /// The key prefix shared by all draws of one purpose in one replicate of one stand.
 pub(crate) fn stream(seed: u64, purpose: Purpose, stand: u64, replicate: u64) -> u64 {
     let s = absorb(mix(seed ^ 0x5EED_0000_0000_0000), purpose as u64);

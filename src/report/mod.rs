@@ -3,6 +3,7 @@
 //! failure leaves no partial output.
 
 mod atomic;
+mod batch;
 mod charts;
 pub(crate) use charts::PALETTE;
 mod charts_classes;
@@ -15,6 +16,7 @@ mod tables;
 use std::path::{Path, PathBuf};
 
 pub use atomic::write_files_atomically;
+pub use batch::{batch_rows, rows_per_stand, BatchOutput, BATCH_COLUMNS};
 pub use charts::{
     band_chart_svg, metric_label, metric_series, metrics_chart_svg, stems_chart_svg,
     survival_chart_svg, Axes, BandPoint, Series,

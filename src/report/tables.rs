@@ -19,10 +19,10 @@ fn csv_bytes(header: &[&str], rows: impl Iterator<Item = Vec<String>>) -> Vec<u8
     w.into_inner().unwrap_or_default()
 }
 
-/// `summary.csv`: `scenario,driver,year,age,metric,mean,sd,p05,p50,p95`.
-pub fn summary_csv(r: &ProjectionResult) -> Vec<u8> {
+/// The rows of `summary.csv` (without the header), also the tail of each `batch.csv` row.
+pub(crate) fn summary_rows(r: &ProjectionResult) -> impl Iterator<Item = Vec<String>> + '_ {
     let driver = r.driver.name();
-    let rows = r.years.iter().flat_map(|y| {
+    r.years.iter().flat_map(move |y| {
         Metric::ALL.iter().zip(&y.metrics).map(move |(m, s)| {
             vec![
                 r.scenario.clone(),
@@ -37,12 +37,16 @@ pub fn summary_csv(r: &ProjectionResult) -> Vec<u8> {
                 opt(s.p95),
             ]
         })
-    });
+    })
+}
+
+/// `summary.csv`: `scenario,driver,year,age,metric,mean,sd,p05,p50,p95`.
+pub fn summary_csv(r: &ProjectionResult) -> Vec<u8> {
     csv_bytes(
         &[
             "scenario", "driver", "year", "age", "metric", "mean", "sd", "p05", "p50", "p95",
         ],
-        rows,
+        summary_rows(r),
     )
 }
 

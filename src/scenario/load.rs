@@ -5,14 +5,14 @@ use std::path::{Path, PathBuf};
 
 use sha2::{Digest, Sha256};
 
-use super::actions::{self, Action};
+use super::actions::Action;
+use super::bind::Binding;
 use super::schema::{key_path_at, ScenarioFile, UncertaintySection};
-use super::trees::{Constant, TreeList};
+use super::trees::TreeList;
 use super::{cohort, ScenarioError};
 use crate::model::file::{GrowthResponse, ModelFile};
 use crate::model::stored::{GrowthModel, Model, ModelCommon, SurvivalModel};
-use crate::project::evaluator::{CompileError, CompiledPredictor};
-use crate::tolerance::WHOLE_STEMS_ATOL;
+use crate::project::evaluator::CompiledPredictor;
 
 /// Which sources of uncertainty the Monte Carlo driver draws.
 pub type Uncertainty = UncertaintySection;
@@ -74,6 +74,9 @@ pub struct Scenario {
     pub inputs: Vec<InputFile>,
     pub(crate) survival_eval: CompiledPredictor,
     pub(crate) growth_eval: CompiledPredictor,
+    /// What binds the trees to the models and actions, kept so that [`Scenario::with_trees`]
+    /// can bind another stand.
+    pub(crate) binding: Binding,
 }
 
 pub(crate) fn sha256_hex(bytes: &[u8]) -> String {
@@ -258,76 +261,18 @@ impl Scenario {
                 }
             }
         }
-        let mut trees = cohort::trees_of(&raw, base, file, &mut inputs)?;
-        for (name, value) in &raw.cohort.attributes {
-            let key = format!("cohort.attributes.{name}");
-            if matches!(name.as_str(), "dbh" | "stand" | "tree" | "expansion")
-                || crate::model::terms::DERIVED.contains(&name.as_str())
-            {
-                return Err(err(&key, format!("`{name}` is a reserved name")).into());
-            }
-            if trees.attribute(name).is_some() {
-                return Err(
-                    err(&key, format!("`{name}` is also a column of the tree list")).into(),
-                );
-            }
-            let c = match value {
-                toml::Value::String(s) => Constant::Level(s.clone()),
-                toml::Value::Integer(i) => Constant::Number(*i as f64),
-                toml::Value::Float(x) if x.is_finite() => Constant::Number(*x),
-                other => {
-                    return Err(err(
-                        &key,
-                        format!("{other} is neither a level (text) nor a number"),
-                    )
-                    .into())
-                }
-            };
-            trees.set_constant(name, c);
-        }
-        if let Some(area) = raw.cohort.area_ha {
-            if !(area > 0.0 && area.is_finite()) {
-                return Err(err("cohort.area_ha", format!("{area} is not a positive area")).into());
-            }
-            for (i, e) in trees.stems_per_ha.iter().enumerate() {
-                let n = e * area;
-                if (n - n.round()).abs() > WHOLE_STEMS_ATOL || n.round() < 1.0 {
-                    return Err(err("cohort.area_ha", format!("tree {} represents {e} stems/ha × {area} ha = {n} stems, not a whole number", trees.tree_ids[i])).into());
-                }
-            }
-        }
-        let actions = actions::validate(
-            &raw.actions,
-            &mut trees,
-            &[&survival.common, &growth.common],
-            raw.horizon_years,
-            raw.step_years,
-            sub_step_years,
-            file,
-        )?;
-        let compile = |key: &str, path: &Path, c: &ModelCommon| {
-            CompiledPredictor::compile(
-                &c.predictor,
-                &c.categorical,
-                c.units,
-                c.fit.as_ref().map(|f| &f.ranges),
-                &trees,
-            )
-            .map_err(|e| {
-                let key = match &e {
-                    CompileError::UnknownLevel { var, .. }
-                        if raw.cohort.attributes.contains_key(var) =>
-                    {
-                        format!("cohort.attributes.{var}")
-                    }
-                    CompileError::UnknownLevel { .. } => "cohort.trees".to_string(),
-                    _ => key.to_string(),
-                };
-                err(&key, format!("{} ({}): {e}", path.display(), key_model(&e)))
-            })
+        let trees = cohort::trees_of(&raw, base, file, &mut inputs)?;
+        let binding = Binding {
+            attributes: raw.cohort.attributes.clone(),
+            area_ha: raw.cohort.area_ha,
+            actions: raw.actions.clone(),
         };
-        let survival_eval = compile("models.survival", &spath, &survival.common)?;
-        let growth_eval = compile("models.growth", &gpath, &growth.common)?;
+        let bound = binding.bind(
+            trees,
+            file,
+            [(&spath, &survival.common), (&gpath, &growth.common)],
+            [raw.horizon_years, raw.step_years, sub_step_years],
+        )?;
         Ok(Scenario {
             file: file.to_string(),
             name: raw.name,
@@ -348,12 +293,13 @@ impl Scenario {
                 period_years: gp,
             },
             uncertainty,
-            trees,
+            trees: bound.trees,
             area_ha: raw.cohort.area_ha,
-            actions,
+            actions: bound.actions,
             inputs,
-            survival_eval,
-            growth_eval,
+            survival_eval: bound.survival_eval,
+            growth_eval: bound.growth_eval,
+            binding,
         })
     }
 
@@ -361,13 +307,6 @@ impl Scenario {
     /// the expected trajectory differ in general).
     pub fn depends_on_stand(&self) -> bool {
         self.survival_eval.depends_on_stand() || self.growth_eval.depends_on_stand()
-    }
-}
-
-fn key_model(e: &CompileError) -> &'static str {
-    match e {
-        CompileError::UnknownLevel { .. } => "levels",
-        _ => "terms",
     }
 }
 

@@ -2,6 +2,7 @@
 //! file, cohort generation and the tree-list reader.
 
 mod actions;
+mod bind;
 mod cohort;
 mod load;
 mod plan;

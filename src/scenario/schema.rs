@@ -45,7 +45,7 @@ pub struct ScenarioFile {
 /// density limit in force. A `density_limit` stays in force from its year to the horizon (a
 /// later one replaces it) and is applied at the end of every sub-step. Summaries of a year
 /// are taken after its actions.
-#[derive(Debug, Clone, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ActionEntry {
     /// Years since the start, on a step boundary (0 applies before the first sub-step).
