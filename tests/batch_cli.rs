@@ -207,3 +207,46 @@ fn shards_outside_one_to_n_are_refused() {
     refused(&trees, &["--shard", "0/2"], &["--shard 0/2"]);
     refused(&trees, &["--shard", "two"], &["--shard two"]);
 }
+
+#[test]
+fn a_tree_list_column_overrides_the_template_cohort_attribute() {
+    // A batch template whose generated cohort sets treatment = "a" for the models' sake: each
+    // stand's own treatment column wins, so stand "B 2" (treatment b) projects exactly as it
+    // does with the scenario that reads its tree list directly.
+    let sb = sandbox();
+    sb.write(
+        "template.toml",
+        &scenario("stand0.csv").replace(
+            "trees = \"stand0.csv\"",
+            "stems_per_ha = 1600\nrecords = 20\ndbh = { distribution = \"fixed\", value = 10.0 }\nattributes = { treatment = \"a\" }",
+        ),
+    );
+    let a = sb.run(&[
+        "batch",
+        "template.toml",
+        "--trees",
+        "trees.csv",
+        "--out",
+        "t.csv",
+    ]);
+    assert_eq!(a.status.code(), Some(0), "{}", stderr(&a));
+    let b = sb.run(&[
+        "batch",
+        "batch.toml",
+        "--trees",
+        "trees.csv",
+        "--out",
+        "b.csv",
+    ]);
+    assert_eq!(b.status.code(), Some(0), "{}", stderr(&b));
+    let rows = |f: &str| -> Vec<String> {
+        std::fs::read_to_string(sb.path(f))
+            .unwrap()
+            .lines()
+            .filter(|l| l.starts_with("B 2,"))
+            .map(|l| l.replacen(",w2,", ",", 1))
+            .collect()
+    };
+    assert!(!rows("t.csv").is_empty());
+    assert_eq!(rows("t.csv"), rows("b.csv"));
+}

@@ -55,11 +55,11 @@ impl Binding {
             {
                 return Err(err(&key, format!("`{name}` is a reserved name")));
             }
+            // A column of the tree list wins: cohort attributes fill in what the trees lack, so
+            // that one scenario can serve as the template of a batch whose stands carry their
+            // own treatment column.
             if trees.attribute(name).is_some() {
-                return Err(err(
-                    &key,
-                    format!("`{name}` is also a column of the tree list"),
-                ));
+                continue;
             }
             let c = match value {
                 toml::Value::String(s) => Constant::Level(s.clone()),
