@@ -7,6 +7,7 @@ mod actions;
 mod batch;
 mod binomial;
 mod compare;
+mod compile_error;
 mod drivers;
 pub mod evaluator;
 mod fastmath;
