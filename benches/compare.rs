@@ -7,26 +7,12 @@
 
 use std::path::Path;
 
+#[path = "common/w2.rs"]
+mod w2;
+
 use criterion::{criterion_group, criterion_main, Criterion};
 use stemcast::project::{compare_scenarios, run_scenario, CompareOptions, RunOptions};
 use stemcast::scenario::Scenario;
-
-const SURVIVAL: &str = "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5\n\
-[[coefficients]]\nterm = \"(intercept)\"\nestimate = 1.2\n\
-[[coefficients]]\nterm = \"dbh\"\nestimate = 0.15\n\
-[[coefficients]]\nterm = \"dbh^2\"\nestimate = -0.0012\n\
-[[coefficients]]\nterm = \"bal\"\nestimate = -0.04\n";
-
-fn growth() -> String {
-    format!(
-        "kind = \"growth\"\nresponse = \"ln_bai\"\nperiod_years = 5\nresidual_sd = 0.4\n\
-[[coefficients]]\nterm = \"(intercept)\"\nestimate = {:?}\n\
-[[coefficients]]\nterm = \"ln(dbh)\"\nestimate = 1.1\n\
-[[coefficients]]\nterm = \"dbh^2\"\nestimate = -0.0005\n\
-[[coefficients]]\nterm = \"bal\"\nestimate = -0.02\n",
-        -0.5 + (std::f64::consts::PI / 4.0).ln()
-    )
-}
 
 fn scenario(dir: &Path, name: &str, actions: &str) -> Scenario {
     let text = format!(
@@ -43,11 +29,7 @@ fn scenario(dir: &Path, name: &str, actions: &str) -> Scenario {
 fn compare(c: &mut Criterion) {
     let dir = tempfile::tempdir().expect("temp dir");
     let d = dir.path();
-    let trees = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/projection/projection_w2_trees.csv");
-    std::fs::write(d.join("s.toml"), SURVIVAL).expect("write survival model");
-    std::fs::write(d.join("g.toml"), growth()).expect("write growth model");
-    std::fs::copy(trees, d.join("trees.csv")).expect("copy tree list");
+    w2::write_inputs(d);
     let thin = |year: u32| {
         format!(
             "[[actions]]\nyear = {year}\nthin = {{ from = \"below\", to_stems_per_ha = 900 }}\n"
@@ -93,11 +75,7 @@ fn interleaved_ratio(c: &mut Criterion) {
     let _ = c;
     let dir = tempfile::tempdir().expect("temp dir");
     let d = dir.path();
-    let trees = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/projection/projection_w2_trees.csv");
-    std::fs::write(d.join("s.toml"), SURVIVAL).expect("write survival model");
-    std::fs::write(d.join("g.toml"), growth()).expect("write growth model");
-    std::fs::copy(trees, d.join("trees.csv")).expect("copy tree list");
+    w2::write_inputs(d);
     let s: Vec<Scenario> = ["w2", "b", "c", "d"]
         .iter()
         .map(|n| scenario(d, n, ""))

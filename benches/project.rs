@@ -4,26 +4,12 @@
 
 use std::path::Path;
 
+#[path = "common/w2.rs"]
+mod w2;
+
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use stemcast::project::{run_scenario, RunOptions};
 use stemcast::scenario::Scenario;
-
-const SURVIVAL: &str = "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5\n\
-[[coefficients]]\nterm = \"(intercept)\"\nestimate = 1.2\n\
-[[coefficients]]\nterm = \"dbh\"\nestimate = 0.15\n\
-[[coefficients]]\nterm = \"dbh^2\"\nestimate = -0.0012\n\
-[[coefficients]]\nterm = \"bal\"\nestimate = -0.04\n";
-
-fn growth() -> String {
-    format!(
-        "kind = \"growth\"\nresponse = \"ln_bai\"\nperiod_years = 5\nresidual_sd = 0.4\n\
-[[coefficients]]\nterm = \"(intercept)\"\nestimate = {:?}\n\
-[[coefficients]]\nterm = \"ln(dbh)\"\nestimate = 1.1\n\
-[[coefficients]]\nterm = \"dbh^2\"\nestimate = -0.0005\n\
-[[coefficients]]\nterm = \"bal\"\nestimate = -0.02\n",
-        -0.5 + (std::f64::consts::PI / 4.0).ln()
-    )
-}
 
 const SCENARIO: &str =
     "name = \"w2\"\nhorizon_years = 50\nstep_years = 5\nreplicates = 1000\nseed = 1\n\
@@ -32,11 +18,7 @@ const SCENARIO: &str =
 [cohort]\ntrees = \"trees.csv\"\n";
 
 fn scenario(dir: &Path) -> Scenario {
-    let trees = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/fixtures/projection/projection_w2_trees.csv");
-    std::fs::write(dir.join("s.toml"), SURVIVAL).expect("write survival model");
-    std::fs::write(dir.join("g.toml"), growth()).expect("write growth model");
-    std::fs::copy(trees, dir.join("trees.csv")).expect("copy tree list");
+    w2::write_inputs(dir);
     std::fs::write(dir.join("w2.toml"), SCENARIO).expect("write scenario");
     Scenario::read(&dir.join("w2.toml")).expect("valid W2 scenario")
 }
