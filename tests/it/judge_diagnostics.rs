@@ -1,10 +1,8 @@
 //! Diagnostics of `fit survival` through the command line: AUC, Hosmer–Lemeshow, LR test
 //! against the null model, calibration by diameter class, the calibration chart.
 
-mod common;
-
-use common::fixtures::{close, expected, fixture, tol, within};
-use common::{stderr, stdout, Sandbox};
+use crate::common::fixtures::{close, expected, fixture, tol, within};
+use crate::common::{stderr, stdout, Sandbox};
 use serde_json::Value;
 
 fn fit_json(sb: &Sandbox, args: &[&str]) -> Value {

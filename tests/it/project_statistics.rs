@@ -1,8 +1,6 @@
 //! Statistical checks of the drivers with analytic or handbook values (sources beside each).
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use stemcast::project::{run_scenario, Metric, ProjectionResult};
 
 fn means(r: &ProjectionResult, m: Metric) -> Vec<f64> {

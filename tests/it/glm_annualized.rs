@@ -1,8 +1,6 @@
 //! The annualised survival model P = p^L (design §4).
 
-mod glm_common;
-
-use glm_common::*;
+use crate::glm_common::*;
 use ndarray::{Array1, Array2};
 use stemcast::model::annualized::fit_annualized;
 use stemcast::model::glm::GlmData;

@@ -1,11 +1,7 @@
 //! The iteration limit of `FitControl`: a fit that needs more iterations than allowed is
 //! refused as not converged (a runtime failure), naming the iteration count.
 
-#[path = "glm_common/fit1m.rs"]
-mod fit1m;
-mod glm_common;
-
-use glm_common::*;
+use crate::glm_common::*;
 use ndarray::{Array1, Array2};
 use stemcast::model::annualized::{fit_annualized, fit_annualized_with};
 use stemcast::model::firth::{fit_firth, fit_firth_with};
@@ -100,8 +96,8 @@ fn unweighted<'a>(x: &'a Array2<f64>, terms: &'a [String], y: &'a Array1<f64>) -
 // separation) a limit of 2 iterations must end as NotConverged, not as Separation.
 #[test]
 fn large_data_stopped_at_the_limit_is_not_converged() {
-    let (x, y) = fit1m::generate(30_000, 20_240_501);
-    let terms = fit1m::terms();
+    let (x, y) = crate::fit1m::generate(30_000, 20_240_501);
+    let terms = crate::fit1m::terms();
     let control = FitControl::default().max_iterations(2);
     let result = fit_glm_with(
         &unweighted(&x, &terms, &y),

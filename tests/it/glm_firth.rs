@@ -2,9 +2,7 @@
 //! endometrial_firth.json (numpy Newton; cross-checked with R brglm2 0.9, brglm 0.7.2 and
 //! scipy), and the handbook's intercept-only closed form (handbook-checks.md).
 
-mod glm_common;
-
-use glm_common::*;
+use crate::glm_common::*;
 use ndarray::{Array1, Array2};
 use stemcast::model::firth::fit_firth;
 use stemcast::model::glm::GlmData;

@@ -1,8 +1,6 @@
 //! Output files of design §7: names, columns, empty fields, atomic writing; and `check`.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use stemcast::project::run_scenario;
 use stemcast::report::write_projection;
 

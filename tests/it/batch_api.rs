@@ -1,9 +1,6 @@
 //! The library side of `batch`: shards, the stand hash, and `Scenario::with_trees`.
 
-#[path = "project_common/mod.rs"]
-mod common;
-
-use common::Dir;
+use crate::project_common::Dir;
 use stemcast::data::{TreeListSpec, TreeListStream};
 use stemcast::project::{run_scenario, stand_hash, RunOptions, Shard};
 use stemcast::scenario::{Scenario, TreeList};
@@ -34,8 +31,8 @@ fn the_default_stand_keys_as_zero() {
 }
 
 fn scenario(d: &Dir) -> Scenario {
-    d.write("s.toml", &common::w2_survival());
-    d.write("g.toml", &common::w2_growth());
+    d.write("s.toml", &crate::project_common::w2_survival());
+    d.write("g.toml", &crate::project_common::w2_growth());
     d.write("one.csv", "tree,dbh,expansion\n1,10,800\n2,12,800\n");
     let path = d.write(
         "x.toml",
@@ -72,7 +69,7 @@ fn with_trees_names_the_stand_when_a_term_cannot_be_evaluated() {
         "s.toml",
         &format!(
             "{}[[coefficients]]\nterm = \"site\"\nestimate = 0.1\n",
-            common::w2_survival()
+            crate::project_common::w2_survival()
         ),
     );
     d.write("one.csv", "tree,dbh,expansion,site\n1,10,800,3\n");

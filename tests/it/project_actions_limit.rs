@@ -2,9 +2,7 @@
 //! at the limit in the expected driver and at or below it in Monte Carlo, its stems go to
 //! `density_limit_stems_per_ha` and `harvest.csv`, never to `cumulative_survival`.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use stemcast::project::{run_scenario, HarvestAction, Metric, ProjectionResult, RunOptions};
 
 const COHORT: &str =

@@ -1,9 +1,7 @@
 //! Management actions (design §4–5): thinning from below or above in both drivers, at year 0
 //! and later, targets above the density, and `set` changing attributes mid-projection.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use stemcast::project::{run_scenario, Metric, ProjectionResult};
 
 const COHORT: &str =

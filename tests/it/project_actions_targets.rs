@@ -3,9 +3,7 @@
 //! tree lists whose outcome is worked out by hand. Every thinning is at year 0, before any
 //! growth or mortality, so the expected values follow from the diameters alone.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use std::f64::consts::PI;
 use stemcast::project::{run_scenario, HarvestAction, Metric, ProjectionResult, Summary};
 

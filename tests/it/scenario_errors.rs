@@ -1,9 +1,7 @@
 //! Bad input (issue 3, item 8): every case is a bad-input error (exit code 2) whose message
 //! names the file and the key (or line and column), and nothing is written.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use std::path::Path;
 use stemcast::project::{run_scenario, RunOptions};
 use stemcast::scenario::Scenario;

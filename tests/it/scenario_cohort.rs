@@ -1,9 +1,7 @@
 //! Generated cohorts and attributes (design §4–5): quantile diameters, numeric and
 //! categorical attributes given to every tree, and parameter draws through a whole run.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use stemcast::project::{run_scenario, Metric};
 use stemcast::scenario::{quantile_diameters, AttributeValues, DbhDistribution};
 

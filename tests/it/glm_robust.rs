@@ -4,9 +4,7 @@
 //! `covariance_observed_information` of the probit and cloglog cases (statsmodels 0.15.0,
 //! cross-checked with R 4.2.2; fixture README "Conventions (GLM)").
 
-mod glm_common;
-
-use glm_common::*;
+use crate::glm_common::*;
 use stemcast::model::glm::{fit_glm, GlmOptions};
 use stemcast::model::robust::{cluster_robust, observed_information};
 

@@ -1,12 +1,8 @@
 //! `stemcast demo` runs the whole chain from any folder (its data are embedded) and writes
 //! data, model files and projections.
 
-#[path = "common/browser.rs"]
-mod browser;
-mod common;
-
-use browser::{render, Rendered};
-use common::{stderr, stdout, Sandbox};
+use crate::browser::{render, Rendered};
+use crate::common::{stderr, stdout, Sandbox};
 
 #[test]
 fn demo_runs_from_an_empty_folder_and_writes_everything() {

@@ -1,9 +1,7 @@
 //! `fit survival --firth` through the command line against the separation fixtures.
 
-mod common;
-
-use common::fixtures::{close, fixture, numbers};
-use common::{stderr, stdout, Sandbox};
+use crate::common::fixtures::{close, fixture, numbers};
+use crate::common::{stderr, stdout, Sandbox};
 use serde_json::Value;
 
 fn case(name: &str) -> Value {

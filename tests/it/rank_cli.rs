@@ -1,11 +1,9 @@
 //! `stemcast rank` through the command line: agreement with single fits, Akaike weights,
 //! nested LR tests, cross-validation, formats and bad input.
 
-mod common;
-
 use std::collections::BTreeMap;
 
-use common::{stderr, stdout, Sandbox};
+use crate::common::{stderr, stdout, Sandbox};
 use serde_json::Value;
 
 /// 8 stands × 25 trees; survival depends on dbh and on the group, drawn from a fixed linear

@@ -1,9 +1,7 @@
 //! Column roles on the command line: renamed role columns, `--use-column`, and cells that the
 //! standard float parser would read as numbers but are no measurements.
 
-mod common;
-
-use common::{stderr, stdout, Sandbox};
+use crate::common::{stderr, stdout, Sandbox};
 
 /// The bundled trial with every role column renamed.
 fn renamed_trial() -> String {

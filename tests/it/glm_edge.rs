@@ -1,11 +1,6 @@
 //! Refusals and edge cases of the GLM fit: rank deficiency, invalid input, no intercept,
 //! separation on large data, and recovery of the FIT-1M generating coefficients.
 
-mod glm_common;
-
-#[path = "glm_common/fit1m.rs"]
-mod fit1m;
-
 use ndarray::{Array1, Array2};
 use stemcast::model::glm::{fit_glm, GlmData, GlmOptions};
 use stemcast::model::link::Link;
@@ -139,8 +134,8 @@ fn separation_is_caught_on_large_data() {
 // first 200,000 rows to keep debug-build tests fast).
 #[test]
 fn fit_1m_workload_recovers_generating_coefficients() {
-    let (x, y) = fit1m::generate(200_000, 20_240_501);
-    let terms = fit1m::terms();
+    let (x, y) = crate::fit1m::generate(200_000, 20_240_501);
+    let terms = crate::fit1m::terms();
     let fit = fit_glm(&data(&x, &terms, &y), &GlmOptions::default()).unwrap();
     assert!(
         fit.converged && fit.iterations <= 10,
@@ -148,8 +143,8 @@ fn fit_1m_workload_recovers_generating_coefficients() {
         fit.iterations
     );
     for (j, term) in terms.iter().enumerate() {
-        let z = (fit.coefficients[j] - fit1m::TRUE_BETA[j]) / fit.std_errors[j];
-        let truth = fit1m::TRUE_BETA[j];
+        let z = (fit.coefficients[j] - crate::fit1m::TRUE_BETA[j]) / fit.std_errors[j];
+        let truth = crate::fit1m::TRUE_BETA[j];
         assert!(
             z.abs() < 3.0,
             "{term}: {} vs {truth} (z = {z})",

@@ -3,9 +3,7 @@
 //! computed by statsmodels 0.15.0 GLM and cross-checked with R 4.2.2 `glm`; tolerances are the
 //! fixtures' README table.
 
-mod glm_common;
-
-use glm_common::*;
+use crate::glm_common::*;
 use stemcast::model::glm::{fit_glm, GlmFit, GlmOptions};
 use stemcast::model::separation::{find_separation, SeparationKind};
 use stemcast::model::ModelError;

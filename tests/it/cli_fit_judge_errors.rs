@@ -1,9 +1,7 @@
 //! Bad input to the judge options of `fit survival`: exit code 2, one clear sentence, nothing
 //! written.
 
-mod common;
-
-use common::{stderr, stdout, Sandbox};
+use crate::common::{stderr, stdout, Sandbox};
 
 const TREES: &str = "stand,tree,dbh,plot,alive,years
 1,1,10,p1,1,5

@@ -1,9 +1,7 @@
 //! `fit survival --interval annualized` through the command line.
 
-mod common;
-
-use common::fixtures::close;
-use common::{stderr, stdout, Sandbox};
+use crate::common::fixtures::close;
+use crate::common::{stderr, stdout, Sandbox};
 use serde_json::Value;
 
 fn logit(p: f64) -> f64 {

@@ -1,12 +1,7 @@
 //! `stemcast compare`: the files it writes, and bad input refused (exit 2) before anything
 //! runs or is written.
 
-#[path = "common/mod.rs"]
-mod common;
-#[path = "project_common/mod.rs"]
-mod models;
-
-use common::{stderr, stdout, Sandbox};
+use crate::common::{stderr, stdout, Sandbox};
 
 /// A scenario file using `s.toml`/`g.toml` (PROJECT-W2's models, design §9) on a small cohort.
 fn scenario(name: &str, horizon: u32, step: u32, extra: &str) -> String {
@@ -20,8 +15,8 @@ fn scenario(name: &str, horizon: u32, step: u32, extra: &str) -> String {
 
 fn sandbox() -> Sandbox {
     let s = Sandbox::new();
-    s.write("s.toml", &models::w2_survival());
-    s.write("g.toml", &models::w2_growth());
+    s.write("s.toml", &crate::project_common::w2_survival());
+    s.write("g.toml", &crate::project_common::w2_growth());
     s
 }
 

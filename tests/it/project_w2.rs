@@ -1,9 +1,7 @@
 //! PROJECT-W2 (design §9) against the expected trajectory of independent NumPy and R
 //! implementations (tests/fixtures/projection/README.md).
 
-mod project_common;
-
-use project_common::{close, fixtures, w2_growth, w2_survival, Dir};
+use crate::project_common::{close, fixtures, w2_growth, w2_survival, Dir};
 use stemcast::project::{run_scenario, Driver, Metric, RunOptions};
 use stemcast::scenario::Scenario;
 

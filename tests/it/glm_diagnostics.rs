@@ -1,9 +1,7 @@
 //! Diagnostics against the reference fixtures (tests/fixtures, see its README) and the
 //! handbook check values (tests/fixtures/handbook-checks.md).
 
-mod glm_common;
-
-use glm_common::*;
+use crate::glm_common::*;
 use stemcast::model::diagnostics::{
     calibration_by_class, hosmer_lemeshow, lr_test, lr_test_vs_null, require_unit_binary, roc_auc,
 };

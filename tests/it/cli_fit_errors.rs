@@ -2,9 +2,7 @@
 //! (1 for non-convergence), one clear message naming file, line and column where they
 //! apply, and writes no model file.
 
-mod common;
-
-use common::{stderr, Sandbox};
+use crate::common::{stderr, Sandbox};
 
 const GOOD: &str = "stand,tree,dbh,dbh2,alive,years,expansion,treatment,x\n\
 1,1,10.0,11.0,1,5,25,a,1\n1,2,12.0,,0,5,25,b,2\n1,3,8.0,8.5,1,5,25,a,3\n1,4,4.0,,0,5,25,b,4\n\

@@ -2,15 +2,8 @@
 //! resources) and rendered cleanly by a real browser (headless Chromium; skipped with the
 //! reason where it is absent).
 
-#[path = "common/browser.rs"]
-mod browser;
-#[path = "common/mod.rs"]
-mod common;
-#[path = "project_common/mod.rs"]
-mod models;
-
-use browser::{render, Rendered};
-use common::{stderr, Sandbox};
+use crate::browser::{render, Rendered};
+use crate::common::{stderr, Sandbox};
 
 fn scenario(name: &str, extra: &str) -> String {
     format!(
@@ -23,8 +16,8 @@ fn scenario(name: &str, extra: &str) -> String {
 
 fn sandbox() -> Sandbox {
     let s = Sandbox::new();
-    s.write("s.toml", &models::w2_survival());
-    s.write("g.toml", &models::w2_growth());
+    s.write("s.toml", &crate::project_common::w2_survival());
+    s.write("g.toml", &crate::project_common::w2_growth());
     s.write("open.toml", &scenario("open", ""));
     s.write(
         "thin.toml",

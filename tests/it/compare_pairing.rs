@@ -1,10 +1,7 @@
 //! `compare` pairs replicates by common random numbers (design §4): scenarios that agree up
 //! to some year agree exactly, replicate by replicate, up to that year.
 
-#[path = "project_common/mod.rs"]
-mod common;
-
-use common::{model_toml, Dir};
+use crate::project_common::{model_toml, Dir};
 use stemcast::project::{compare_scenarios, CompareOptions, Comparison, Metric};
 use stemcast::scenario::Scenario;
 
@@ -157,7 +154,7 @@ fn different_attributes_do_not_move_any_draw() {
     // common random numbers the same records die in both, so stems/ha and cumulative
     // survival pair exactly in every replicate while basal area differs (derived analytically).
     let d = Dir::new();
-    d.write("s.toml", &common::constant_survival(0.9, 5));
+    d.write("s.toml", &crate::project_common::constant_survival(0.9, 5));
     d.write("g.toml", &growth());
     let text = |name: &str, level: &str| {
         format!(

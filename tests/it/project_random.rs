@@ -1,9 +1,7 @@
 //! Reproducibility of the Monte Carlo driver: thread count, independence of the random
 //! sources, a pinned tiny run, and unit conversion of imperial models.
 
-mod project_common;
-
-use project_common::*;
+use crate::project_common::*;
 use stemcast::project::{run_scenario, Metric};
 
 const COHORT: &str =

@@ -1,10 +1,8 @@
 //! Cluster-robust covariance and the exposure interval through the command line, against the
 //! lung fixtures.
 
-mod common;
-
-use common::fixtures::{close, expected, fixture, numbers};
-use common::{stderr, stdout, Sandbox};
+use crate::common::fixtures::{close, expected, fixture, numbers};
+use crate::common::{stderr, stdout, Sandbox};
 use serde_json::Value;
 
 #[test]

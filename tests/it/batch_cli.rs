@@ -7,12 +7,7 @@
 //! these tests pin the design §4 rule that a stand's draws depend only on (seed, purpose,
 //! stand, replicate, tree, sub-step).
 
-#[path = "common/mod.rs"]
-mod common;
-#[path = "project_common/mod.rs"]
-mod models;
-
-use common::{stderr, Sandbox};
+use crate::common::{stderr, Sandbox};
 
 const STANDS: [&str; 3] = ["s1", "B 2", "s2"];
 
@@ -41,13 +36,13 @@ const HEADER: &str = "stand,tree,dbh,expansion,treatment\n";
 
 fn sandbox() -> Sandbox {
     let s = Sandbox::new();
-    let mut survival = models::w2_survival();
+    let mut survival = crate::project_common::w2_survival();
     survival.push_str(
         "[[coefficients]]\nterm = \"treatment=b\"\nestimate = -0.6\n\n\
          [categorical.treatment]\nlevels = [\"a\", \"b\"]\nreference = \"a\"\n",
     );
     s.write("s.toml", &survival);
-    s.write("g.toml", &models::w2_growth());
+    s.write("g.toml", &crate::project_common::w2_growth());
     let mut all = HEADER.to_string();
     for (k, stand) in STANDS.iter().enumerate() {
         let rows = stand_rows(stand, 15 + 5 * k, if k == 1 { "b" } else { "a" });
