@@ -1,4 +1,4 @@
-//! The annualised survival model P = p^L (design §4).
+//! The annualised survival model P = p^L (`docs/maths.md#annualised-survival`).
 
 mod glm_common;
 
