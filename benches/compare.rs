@@ -1,8 +1,8 @@
-//! `compare` against one projection: PROJECT-W2 (design §9; 1,000 records × 1,000 replicates ×
-//! 10 sub-steps, Monte Carlo, dynamic BAL, stochastic growth and survival) alone, then four
-//! W2-sized scenarios compared with common random numbers (one untouched, three thinned at
-//! different years, so the trajectories really differ; thinned stands are cheaper to step), and
-//! four unthinned copies (the full workload four times: the worst case for the ratio).
+//! `compare` against one projection: PROJECT-W2 (`docs/performance.md#project-w2`; 1,000 records ×
+//! 1,000 replicates × 10 sub-steps, Monte Carlo, dynamic BAL, stochastic growth and survival)
+//! alone, then four W2-sized scenarios compared with common random numbers (one untouched, three
+//! thinned at different years, so the trajectories really differ; thinned stands are cheaper to
+//! step), and four unthinned copies (the full workload four times: the worst case for the ratio).
 //! Target: compare ≤ 4.5 × one projection.
 
 use std::path::Path;

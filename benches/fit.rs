@@ -1,5 +1,5 @@
-//! Fitting FIT-1M (design §8–9): 1,000,000 records, logit on dbh, dbh², bal, treatment, data
-//! in memory, one core. Target: under 0.2 s per fit.
+//! Fitting FIT-1M (`docs/performance.md#fit-1m`): 1,000,000 records, logit on dbh, dbh², bal,
+//! treatment, data in memory, one core. Target: under 0.2 s per fit.
 
 use std::time::Duration;
 

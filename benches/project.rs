@@ -1,6 +1,6 @@
-//! PROJECT-W2 (design §9): 1,000 records × 1,000 replicates × 10 sub-steps, Monte Carlo with
-//! dynamic BAL, stochastic growth and random survival, parameters off; at 1 and 2 threads.
-//! Throughput = records × replicates × sub-steps / time.
+//! PROJECT-W2 (`docs/performance.md#project-w2`): 1,000 records × 1,000 replicates × 10 sub-steps,
+//! Monte Carlo with dynamic BAL, stochastic growth and random survival, parameters off; at 1 and 2
+//! threads. Throughput = records × replicates × sub-steps / time.
 
 use std::path::Path;
 

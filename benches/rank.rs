@@ -1,5 +1,5 @@
-//! `rank` on FIT-1M (design §9): 5 candidates, 10 folds grouped by stand, end to end from the
-//! CSV (read once). Target (issue 4): under 15 s on the project machine.
+//! `rank` on FIT-1M (`docs/performance.md#fit-1m`): 5 candidates, 10 folds grouped by stand, end to
+//! end from the CSV (read once). Target (issue 4): under 15 s on the project machine.
 
 use std::collections::BTreeMap;
 use std::io::Write;

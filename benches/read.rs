@@ -1,5 +1,6 @@
-//! Reading the FIT-1M remeasurement file (design §9): 1,000,000 rows with columns stand,
-//! tree, dbh, bal, treatment, years, alive. Target (design §8): well under 1 s on one core.
+//! Reading the FIT-1M remeasurement file (`docs/performance.md#fit-1m`): 1,000,000 rows with
+//! columns stand, tree, dbh, bal, treatment, years, alive. Target
+//! (`docs/performance.md#targets`): well under 1 s on one core.
 //!
 //! The file is generated, seeded, into a temporary folder before timing.
 
@@ -39,8 +40,8 @@ impl SplitMix {
     }
 }
 
-/// Write FIT-1M as in design §9 (lognormal dbh, median 15 cm, geometric SD 1.8, truncated
-/// to 1–120 cm; bal uniform 0–40; treatment a/b; years 5; alive Bernoulli(logistic(η))).
+/// Write FIT-1M as in `docs/performance.md#fit-1m` (lognormal dbh, median 15 cm, geometric SD 1.8,
+/// truncated to 1–120 cm; bal uniform 0–40; treatment a/b; years 5; alive Bernoulli(logistic(η))).
 fn write_fit_1m(path: &Path) {
     let file = std::fs::File::create(path).unwrap();
     let mut out = std::io::BufWriter::new(file);

@@ -1,4 +1,5 @@
-//! The PROJECT-W2 models and tree list of design §9, written into a folder for the benches.
+//! The PROJECT-W2 models and tree list (`docs/performance.md#project-w2`), written into a
+//! folder for the benches.
 
 use std::path::Path;
 

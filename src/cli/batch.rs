@@ -13,7 +13,7 @@ use stemcast::scenario::Scenario;
 /// Project one scenario for every stand of a tree list, one long CSV for all stands.
 #[derive(Debug, Clone, clap::Args)]
 pub struct Args {
-    /// Scenario file (TOML, design §5); each stand replaces its `[cohort]` trees.
+    /// Scenario file (TOML, `docs/scenario.md`); each stand replaces its `[cohort]` trees.
     pub scenario: PathBuf,
     /// Tree list with several stands (columns stand, tree, dbh, expansion, attributes); the
     /// rows of each stand must be together.

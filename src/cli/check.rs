@@ -8,7 +8,7 @@ use stemcast::scenario::{check, Scenario};
 /// Validate a scenario and print its projection plan.
 #[derive(Debug, Clone, clap::Args)]
 pub struct Args {
-    /// Scenario file (TOML, design §5).
+    /// Scenario file (TOML, `docs/scenario.md`).
     pub scenario: PathBuf,
 }
 

@@ -12,7 +12,7 @@ use stemcast::Error;
 /// Project several scenarios with common random numbers and compare them with the first.
 #[derive(Debug, Clone, clap::Args)]
 pub struct Args {
-    /// Scenario files (TOML, design §5); the first is the baseline.
+    /// Scenario files (TOML, `docs/scenario.md`); the first is the baseline.
     #[arg(required = true, value_name = "SCENARIO.toml")]
     pub scenarios: Vec<PathBuf>,
     /// Output folder (default: `comparison` in the current folder).

@@ -17,7 +17,7 @@ use stemcast::Error;
 pub enum Format {
     /// A readable table.
     Text,
-    /// One JSON object (design §2).
+    /// One JSON object (`docs/commands.md#survival-json`, `docs/commands.md#growth-json`).
     Json,
 }
 

@@ -11,7 +11,7 @@ use stemcast::scenario::Scenario;
 /// Project one stand forward by Monte Carlo (or its expected trajectory with `--expected`).
 #[derive(Debug, Clone, clap::Args)]
 pub struct Args {
-    /// Scenario file (TOML, design §5).
+    /// Scenario file (TOML, `docs/scenario.md`).
     pub scenario: PathBuf,
     /// Output folder (default: `<scenario file stem>-projection` in the current folder).
     #[arg(long, value_name = "DIR")]

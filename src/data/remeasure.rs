@@ -1,4 +1,5 @@
-//! Loading remeasurement records (design §3) into the [`Frame`] of a survival or growth fit.
+//! Loading remeasurement records (`docs/data.md#remeasurement-files`) into the [`Frame`] of a
+//! survival or growth fit.
 
 use std::path::Path;
 

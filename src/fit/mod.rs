@@ -66,7 +66,7 @@ pub struct TermNeeds {
 /// Parse `--predictors` and work out what the terms need from the file.
 ///
 /// # Errors
-/// A term outside the grammar (design §6).
+/// A term outside the grammar (`docs/model-files.md#term-grammar`).
 pub fn term_needs(predictors: &str, data: &DataOptions) -> Result<TermNeeds, ModelError> {
     let terms = parse_predictors(predictors)?;
     if terms.is_empty() {

@@ -1,5 +1,6 @@
-//! Text and JSON renderings of fit results (design §2). The library renders to strings; only
-//! the command-line layer prints them.
+//! Text and JSON renderings of fit results (`docs/commands.md#fit-survival`,
+//! `docs/commands.md#fit-growth`). The library renders to strings; only the command-line layer
+//! prints them.
 
 use serde_json::{json, Value};
 use statrs::distribution::{ContinuousCDF, StudentsT};
@@ -123,7 +124,7 @@ pub fn growth_text(fit: &GrowthFit, source: &str) -> String {
     out
 }
 
-/// The JSON object of design §2 for a growth fit.
+/// The JSON object of `docs/commands.md#growth-json` for a growth fit.
 pub fn growth_json(fit: &GrowthFit) -> Value {
     let o = &fit.ols;
     let coefficients: Vec<Value> = (0..o.names.len())

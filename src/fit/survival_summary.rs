@@ -1,4 +1,5 @@
-//! Text and JSON renderings of a survival fit (design §2), with its diagnostics.
+//! Text and JSON renderings of a survival fit (`docs/commands.md#fit-survival`), with its
+//! diagnostics.
 
 use serde_json::{json, Value};
 use statrs::distribution::{ContinuousCDF, Normal};
@@ -202,8 +203,8 @@ fn or_reason<T>(r: &Result<T, Unavailable>, f: impl Fn(&T) -> Value) -> (Value, 
     }
 }
 
-/// The JSON object of design §2 for a survival fit, with its diagnostics. A diagnostic that
-/// does not apply is `null`, and `unavailable` says why.
+/// The JSON object of `docs/commands.md#survival-json` for a survival fit, with its diagnostics. A
+/// diagnostic that does not apply is `null`, and `unavailable` says why.
 pub fn survival_json(fit: &SurvivalFit) -> Value {
     let g = &fit.glm;
     let inf = &fit.inference;

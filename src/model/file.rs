@@ -1,5 +1,5 @@
-//! The model file (design §6): a small, human-readable TOML file written by `fit` and also
-//! typed by hand from published coefficients. [`ModelFile`] is the file as written;
+//! The model file (`docs/model-files.md`): a small, human-readable TOML file written by `fit` and
+//! also typed by hand from published coefficients. [`ModelFile`] is the file as written;
 //! [`Model`](super::stored::Model) is the validated value the rest of the crate uses.
 
 use std::collections::BTreeMap;
@@ -21,7 +21,8 @@ pub enum ModelKind {
     Growth,
 }
 
-/// How the remeasurement interval enters the survival model (design §4).
+/// How the remeasurement interval enters the survival model
+/// (`docs/maths.md#survival-over-the-remeasurement-interval`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum IntervalKind {
@@ -132,7 +133,7 @@ pub struct FitInfo {
     pub ranges: BTreeMap<String, [f64; 2]>,
 }
 
-/// The model file exactly as stored (design §6).
+/// The model file exactly as stored (`docs/model-files.md#keys`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ModelFile {

@@ -194,7 +194,7 @@ pub(crate) fn rank_deficient(
     ModelError::RankDeficient { term, message }
 }
 
-/// Fits a binomial GLM by IRLS (design §4), refusing data without a maximum-likelihood
+/// Fits a binomial GLM by IRLS (`docs/maths.md#irls`), refusing data without a maximum-likelihood
 /// estimate.
 ///
 /// Starts from μ = (w·y + ½)/(w + 1), stops when the relative deviance change is below

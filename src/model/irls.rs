@@ -110,9 +110,9 @@ pub struct Problem<'a> {
 }
 
 impl Problem<'_> {
-    /// Runs IRLS from the pass at the starting values until both stopping rules of design §4
-    /// hold or [`MAX_ITERATIONS`] solves have been made, halving the step whenever the deviance
-    /// increases.
+    /// Runs IRLS from the pass at the starting values until both stopping rules
+    /// (`docs/maths.md#irls`) hold or [`MAX_ITERATIONS`] solves have been made, halving the
+    /// step whenever the deviance increases.
     pub fn run(&self, start: Pass) -> Result<IrlsResult, IrlsError> {
         self.run_limited(start, MAX_ITERATIONS)
     }

@@ -1,4 +1,5 @@
-//! Predictor terms: the grammar of design §6, parsing, canonical labels, and transforms.
+//! Predictor terms: the grammar of `docs/model-files.md#term-grammar`, parsing, canonical labels,
+//! and transforms.
 //!
 //! A term is a product of one or more factors (`a:b`). A factor is either a numeric variable
 //! under a transform (`dbh`, `ln(dbh)`, `ln(bal+1)`, `sqrt(dbh)`, `dbh^2`, `dbh^-1`) or the
@@ -11,8 +12,8 @@ use super::ModelError;
 /// Name of the intercept term in coefficient lists and model files.
 pub const INTERCEPT: &str = "(intercept)";
 
-/// Stand-level covariates derived from the tree list (design §3); the projector recomputes
-/// them every sub-step.
+/// Stand-level covariates derived from the tree list (`docs/data.md#derived-covariates`); the
+/// projector recomputes them every sub-step.
 pub const DERIVED: [&str; 5] = ["ba", "bal", "qmd", "rel_dbh", "stems"];
 
 /// Derived covariates that can be exactly zero (so `ln(x)` and negative powers are refused).
@@ -148,8 +149,8 @@ impl Term {
     /// Parse one term. The intercept is not a term here.
     ///
     /// # Errors
-    /// [`ModelError::Term`] for anything outside the grammar of design §6, and for `ln(x)` or
-    /// negative powers of covariates that can be zero (`ba`, `bal`, `stems`).
+    /// [`ModelError::Term`] for anything outside the grammar (`docs/model-files.md#term-grammar`),
+    /// and for `ln(x)` or negative powers of covariates that can be zero (`ba`, `bal`, `stems`).
     pub fn parse(text: &str) -> Result<Term, ModelError> {
         let text = text.trim();
         let err = |message: String| ModelError::Term {

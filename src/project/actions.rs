@@ -1,4 +1,5 @@
-//! Management actions applied to a stand at the end of a sub-step (design §4–5): thinning from
+//! Management actions applied to a stand at the end of a sub-step
+//! (`docs/maths.md#management-actions`, `docs/scenario.md#actions`): thinning from
 //! below, from above or proportionally to a target, the density limit, and setting attributes.
 //!
 //! Diameter order is ascending (descending for thinning from above) with ties broken by tree

@@ -1,5 +1,5 @@
 //! Batch runs: one scenario projected for every stand of a tree list, streamed stand by stand
-//! so that memory does not grow with the number of stands (design §8).
+//! so that memory does not grow with the number of stands (`docs/performance.md#targets`).
 //!
 //! Each stand replaces the scenario's own trees ([`Scenario::with_trees`]) and is projected as
 //! `project` would project it alone: its random draws are keyed by its id, never by its

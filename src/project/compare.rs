@@ -3,10 +3,10 @@
 //! (record index in the tree list), sub-step and purpose. Differences are then taken replicate
 //! by replicate against the first scenario (the baseline).
 //!
-//! Why this pairs: a draw's key is (seed, purpose, stand, replicate, record, sub-step) and
-//! nothing else (design §4), so attributes set by actions, thinnings that remove other records
-//! or a different survival probability do not move any record's uniform or normal deviate. Two
-//! scenarios identical up to year t therefore have identical trajectories up to year t in every
+//! Why this pairs: a draw's key is (seed, purpose, stand, replicate, record, sub-step) and nothing
+//! else (`docs/maths.md#random-numbers`), so attributes set by actions, thinnings that remove other
+//! records or a different survival probability do not move any record's uniform or normal deviate.
+//! Two scenarios identical up to year t therefore have identical trajectories up to year t in every
 //! replicate, and their paired difference there is exactly zero.
 
 use super::result::{Metric, ProjectionResult};

@@ -6,7 +6,7 @@ use crate::scenario::InputFile;
 /// Which driver produced a result.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Driver {
-    /// Random replicates (design §4).
+    /// Random replicates (`docs/maths.md#monte-carlo-driver`).
     MonteCarlo,
     /// The deterministic expected-value trajectory.
     Expected,

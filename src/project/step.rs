@@ -1,5 +1,5 @@
-//! One sub-step of design §4: competition covariates from the live trees → survival
-//! probability per record → mortality → growth of the survivors → DBH order restored.
+//! One sub-step (`docs/maths.md#the-projection-step`): competition covariates from the live trees →
+//! survival probability per record → mortality → growth of the survivors → DBH order restored.
 
 use super::binomial;
 use super::evaluator::{CompiledPredictor, Covariates, Source};

@@ -1,6 +1,7 @@
-//! Validating `[[actions]]` (design §5): the sub-step each action falls on, thinning targets,
-//! density limits, attributes that exist and levels the models know. Levels introduced by
-//! `set` are added to the trees' level lists so that the compiled models resolve them to codes.
+//! Validating `[[actions]]` (`docs/scenario.md#actions`): the sub-step each action falls on,
+//! thinning targets, density limits, attributes that exist and levels the models know. Levels
+//! introduced by `set` are added to the trees' level lists so that the compiled models resolve them
+//! to codes.
 
 use super::schema::{ActionEntry, ThinEntry, ThinFrom};
 use super::trees::{AttributeValues, TreeList};

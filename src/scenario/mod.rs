@@ -1,5 +1,5 @@
-//! Projection scenarios (TOML, design §5): schema, validation, paths relative to the scenario
-//! file, cohort generation and the tree-list reader.
+//! Projection scenarios (TOML, `docs/scenario.md`): schema, validation, paths relative to the
+//! scenario file, cohort generation and the tree-list reader.
 
 mod actions;
 mod bind;

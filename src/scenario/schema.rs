@@ -1,4 +1,4 @@
-//! The scenario file exactly as written (design §5). Every table refuses unknown keys;
+//! The scenario file exactly as written (`docs/scenario.md`). Every table refuses unknown keys;
 //! [`super::Scenario`] is the validated value built from it.
 
 use std::collections::BTreeMap;

@@ -1,7 +1,7 @@
-//! The FIT-1M workload of design §9, generated from a seed: dbh lognormal (median 15 cm,
-//! geometric SD 1.8, redrawn outside 1–120 cm), bal uniform on 0–40 m²/ha, treatment a/b
-//! alternating, alive ~ Bernoulli(logistic(1.2 + 0.15·dbh − 0.0012·dbh² − 0.04·bal −
-//! 0.6·[treatment = b])). Shared by the criterion bench and the recovery test.
+//! The FIT-1M workload (`docs/performance.md#fit-1m`), generated from a seed: dbh lognormal
+//! (median 15 cm, geometric SD 1.8, redrawn outside 1–120 cm), bal uniform on 0–40 m²/ha,
+//! treatment a/b alternating, alive ~ Bernoulli(logistic(1.2 + 0.15·dbh − 0.0012·dbh² −
+//! 0.04·bal − 0.6·[treatment = b])). Shared by the criterion bench and the recovery test.
 
 use ndarray::{Array1, Array2};
 use rand::{RngExt, SeedableRng};

@@ -4,15 +4,16 @@
 //!
 //! The check values are not numbers from an outside reference: each is the output of
 //! `stemcast project` (or of an unsharded, uninterrupted `batch` run) on the same inputs, so
-//! these tests pin the design §4 rule that a stand's draws depend only on (seed, purpose,
-//! stand, replicate, tree, sub-step).
+//! these tests pin the rule of `docs/maths.md#random-numbers` that a stand's draws depend only
+//! on (seed, purpose, stand, replicate, tree, sub-step).
 
 use crate::common::{stderr, Sandbox};
 
 const STANDS: [&str; 3] = ["s1", "B 2", "s2"];
 
-/// A scenario on PROJECT-W2's growth model (design §9) and its survival model plus a
-/// treatment term, so that stands must carry the attribute `treatment` with a known level.
+/// A scenario on PROJECT-W2's growth model (`docs/performance.md#project-w2`) and its survival
+/// model plus a treatment term, so that stands must carry the attribute `treatment` with a known
+/// level.
 fn scenario(trees: &str) -> String {
     format!(
         "name = \"w2\"\nhorizon_years = 20\nstep_years = 5\nreplicates = 30\nseed = 9\n\n\
@@ -95,7 +96,7 @@ fn each_stand_equals_project_on_that_stand_alone() {
                 .filter_map(|l| l.strip_prefix(&prefix).map(str::to_string))
                 .collect();
             let project: Vec<String> = summary.lines().skip(1).map(str::to_string).collect();
-            assert_eq!(project.len(), 5 * 7, "5 years × 7 metrics (design §7)");
+            assert_eq!(project.len(), 5 * 7, "5 years × 7 metrics: docs/outputs.md");
             assert_eq!(mine, project, "stand {stand}, expected driver: {expected}");
         }
     }
@@ -127,7 +128,7 @@ fn resume_completes_a_truncated_run_to_the_same_bytes() {
     ok(&batch(&s, &[]));
     let whole = read(&s, "batch.csv");
     let lines: Vec<&str> = whole.split_inclusive('\n').collect();
-    // Header plus the first stand's 5 years × 7 metrics (design §7).
+    // Header plus the first stand's 5 years × 7 metrics (docs/outputs.md#batch).
     let first: String = lines[..1 + 35].concat();
     // ... and the same cut in the middle of a row of the second stand.
     let partial = format!("{first}{}{}", lines[36], &lines[37][..9]);

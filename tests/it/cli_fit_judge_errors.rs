@@ -114,7 +114,7 @@ fn firth_needs_the_logit_link_and_cluster_needs_the_ordinary_glm() {
 #[test]
 fn a_fit_that_runs_out_of_iterations_exits_1_and_writes_nothing() {
     // birthwt_logit.json reference (R glm) needs 4–5 IRLS iterations from the usual start;
-    // with --max-iterations 2 the fit cannot meet the design §4 stopping rules.
+    // with --max-iterations 2 the fit cannot meet the stopping rules of docs/maths.md#irls.
     let sb = Sandbox::new();
     let data =
         std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/birthwt.csv");

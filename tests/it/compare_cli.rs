@@ -3,7 +3,8 @@
 
 use crate::common::{stderr, stdout, Sandbox};
 
-/// A scenario file using `s.toml`/`g.toml` (PROJECT-W2's models, design §9) on a small cohort.
+/// A scenario file using `s.toml`/`g.toml` (PROJECT-W2's models, `docs/performance.md#project-w2`)
+/// on a small cohort.
 fn scenario(name: &str, horizon: u32, step: u32, extra: &str) -> String {
     format!(
         "name = \"{name}\"\nhorizon_years = {horizon}\nstep_years = {step}\nreplicates = 20\nseed = 5\n\n\

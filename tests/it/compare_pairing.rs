@@ -1,5 +1,5 @@
-//! `compare` pairs replicates by common random numbers (design §4): scenarios that agree up
-//! to some year agree exactly, replicate by replicate, up to that year.
+//! `compare` pairs replicates by common random numbers (`docs/maths.md#random-numbers`): scenarios
+//! that agree up to some year agree exactly, replicate by replicate, up to that year.
 
 use crate::project_common::{model_toml, Dir};
 use stemcast::project::{compare_scenarios, CompareOptions, Comparison, Metric};

@@ -1,5 +1,5 @@
-//! Loading remeasurement records (design §3): row selection, counts, derived covariates and
-//! the messages for bad input.
+//! Loading remeasurement records (`docs/data.md#remeasurement-files`): row selection, counts,
+//! derived covariates and the messages for bad input.
 
 use std::path::PathBuf;
 
@@ -277,7 +277,7 @@ fn derived_covariate_name_clash() {
 
 #[test]
 fn bal_column_without_stand_and_expansion_is_used_directly() {
-    // The FIT-1M layout (design §9): stand and bal columns, no expansion column.
+    // The FIT-1M layout (docs/performance.md#fit-1m): stand and bal columns, no expansion column.
     let text = "stand,dbh,bal,treatment,years,alive\n1,10,3.5,a,5,1\n1,20,0,b,5,0\n";
     let r = load(
         text,

@@ -1,11 +1,11 @@
-//! The status column's accepted values (design §2 "Response and weights").
+//! The status column's accepted values (`docs/data.md#tree-status`).
 
 use stemcast::data::{Outcome, Status};
 
 #[test]
 fn status_table() {
     use Status::{Alive, Censored, Dead};
-    // (cell, meaning with --outcome alive, meaning with --outcome dead); design §2.
+    // (cell, meaning with --outcome alive, meaning with --outcome dead); docs/data.md#tree-status.
     let table = [
         ("1", Alive, Dead),
         ("0", Dead, Alive),

@@ -1,5 +1,5 @@
-//! Tree lists (projection input, design §3): per-stand arrays, single-stand reading,
-//! streaming, and bad input.
+//! Tree lists (projection input, `docs/data.md#tree-lists`): per-stand arrays, single-stand
+//! reading, streaming, and bad input.
 
 use std::path::PathBuf;
 

@@ -1,4 +1,4 @@
-//! The annualised survival model P = p^L (design §4).
+//! The annualised survival model P = p^L (`docs/maths.md#annualised-survival`).
 
 use crate::glm_common::*;
 use ndarray::{Array1, Array2};

@@ -130,8 +130,8 @@ fn separation_is_caught_on_large_data() {
     }
 }
 
-// design.md §8: the fit recovers the FIT-1M generating coefficients within 3 SE (here on the
-// first 200,000 rows to keep debug-build tests fast).
+// docs/performance.md#targets: the fit recovers the FIT-1M generating coefficients within 3 SE
+// (here on the first 200,000 rows to keep debug-build tests fast).
 #[test]
 fn fit_1m_workload_recovers_generating_coefficients() {
     let (x, y) = crate::fit1m::generate(200_000, 20_240_501);

@@ -92,8 +92,9 @@ fn unweighted<'a>(x: &'a Array2<f64>, terms: &'a [String], y: &'a Array1<f64>) -
 }
 
 // Above separation::ALWAYS_CHECK_MAX_ROWS (20,000) separation is only checked after IRLS
-// stops; on 30,000 rows of the FIT-1M workload (design §9, generating coefficients known, no
-// separation) a limit of 2 iterations must end as NotConverged, not as Separation.
+// stops; on 30,000 rows of the FIT-1M workload (docs/performance.md#fit-1m, generating
+// coefficients known, no separation) a limit of 2 iterations must end as NotConverged, not as
+// Separation.
 #[test]
 fn large_data_stopped_at_the_limit_is_not_converged() {
     let (x, y) = crate::fit1m::generate(30_000, 20_240_501);

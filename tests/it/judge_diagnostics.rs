@@ -51,7 +51,7 @@ fn birthwt_auc_hosmer_lemeshow_and_lr_test_match_the_fixture() {
     assert_eq!(
         hl.as_object().unwrap().keys().collect::<Vec<_>>(),
         ["df", "n_groups", "p_value", "statistic"],
-        "design §2 keys"
+        "docs/commands.md#survival-json keys"
     );
     assert_eq!(
         j["hosmer_lemeshow_groups"]["group_sizes"],

@@ -1,4 +1,5 @@
-//! Model files typed by hand (design §6) load; malformed ones are refused with the key named.
+//! Model files typed by hand (`docs/model-files.md`) load; malformed ones are refused with the key
+//! named.
 
 use std::path::Path;
 
@@ -8,7 +9,7 @@ use stemcast::model::stored::Model;
 
 #[test]
 fn hand_typed_survival_model_loads_with_defaults() {
-    // Coefficients typed from design.md §6's example.
+    // Coefficients typed from the example of docs/model-files.md (invented values).
     let m = Model::read(Path::new("tests/fixtures/models/hand_typed_survival.toml")).unwrap();
     let Model::Survival(s) = m else {
         panic!("expected a survival model")

@@ -1,5 +1,6 @@
-//! Management actions (design §4–5): thinning from below or above in both drivers, at year 0
-//! and later, targets above the density, and `set` changing attributes mid-projection.
+//! Management actions (`docs/scenario.md#actions`, `docs/maths.md#management-actions`): thinning
+//! from below or above in both drivers, at year 0 and later, targets above the density, and `set`
+//! changing attributes mid-projection.
 
 use crate::project_common::*;
 use stemcast::project::{run_scenario, Metric, ProjectionResult};
@@ -23,7 +24,7 @@ const THIN_10: &str = "[[actions]]\nyear = 10\nthin = { from = \"below\", to_ste
 
 #[test]
 fn expected_thinning_removes_weight_exactly_from_below() {
-    // Design §5: the expected driver removes weight in diameter order and splits the
+    // docs/maths.md#thinning: the expected driver removes weight in diameter order and splits the
     // boundary record exactly, so stems/ha after the thinning equal the target; cumulative
     // survival counts model mortality only (the same as without the thinning up to year 10).
     let d = Dir::new();
@@ -74,8 +75,8 @@ fn expected_thinning_removes_weight_exactly_from_below() {
 
 #[test]
 fn monte_carlo_thinning_removes_whole_records() {
-    // Design §5: whole records (25 stems/ha each here) are removed until stems ≤ target, so
-    // after the thinning every replicate lies in (target − 25, target].
+    // docs/maths.md#thinning: whole records (25 stems/ha each here) are removed until stems ≤
+    // target, so after the thinning every replicate lies in (target − 25, target].
     let d = Dir::new();
     d.write("s.toml", &constant_survival(0.9, 5));
     d.write("g.toml", &linear_growth(0.3, 0.0, 0.1, 5));
@@ -87,7 +88,8 @@ fn monte_carlo_thinning_removes_whole_records() {
 
 #[test]
 fn thinning_at_year_zero_and_from_above() {
-    // Year 0 applies before the first sub-step (design §4): the year-0 row already shows it.
+    // Year 0 applies before the first sub-step (docs/scenario.md#actions): the year-0 row already
+    // shows it.
     let d = Dir::new();
     d.write("s.toml", &constant_survival(0.9, 5));
     d.write("g.toml", &linear_growth(0.3, 0.0, 0.0, 5));
@@ -114,8 +116,8 @@ fn thinning_at_year_zero_and_from_above() {
 
 #[test]
 fn ties_are_removed_by_tree_id() {
-    // Design §5: equal diameters leave in tree-id order. 40 records of 25 stems/ha, all
-    // 10 cm; thinning to 900 removes the first four records (ids 1–4).
+    // docs/maths.md#management-actions: equal diameters leave in tree-id order. 40 records of 25
+    // stems/ha, all 10 cm; thinning to 900 removes the first four records (ids 1–4).
     let d = Dir::new();
     d.write("s.toml", &constant_survival(0.9, 5));
     d.write("g.toml", &linear_growth(0.3, 0.0, 0.0, 5));

@@ -126,8 +126,8 @@ fn monte_carlo_never_exceeds_the_limit() {
 
 #[test]
 fn removed_stems_never_enter_cumulative_survival() {
-    // Every tree survives the model (p = 1), while a thinning and the density limit take
-    // stems out: cumulative survival stays exactly 1 in every replicate (design §4).
+    // Every tree survives the model (p = 1), while a thinning and the density limit take stems out:
+    // cumulative survival stays exactly 1 in every replicate (docs/maths.md#cumulative-survival).
     let actions = format!(
         "[[actions]]\nyear = 10\nthin = {{ from = \"above\", to_stems_per_ha = 800 }}\n\n{LIMIT}"
     );

@@ -1,10 +1,12 @@
-//! Basal area in larger trees against a brute-force sum (property test). Diameters are
-//! rounded to 0.1 cm so that ties are common: equal diameters are not larger (design §3).
+//! Basal area in larger trees against a brute-force sum (property test). Diameters are rounded to
+//! 0.1 cm so that ties are common: equal diameters are not larger
+//! (`docs/data.md#derived-covariates`).
 
 use proptest::prelude::*;
 use stemcast::project::basal_area_larger;
 
-/// Brute force, straight from the definition (design §3): Σ over trees strictly larger.
+/// Brute force, straight from the definition (`docs/data.md#derived-covariates`): Σ over trees
+/// strictly larger.
 fn brute_force(dbh: &[f64], e: &[f64]) -> Vec<f64> {
     dbh.iter()
         .map(|&di| {

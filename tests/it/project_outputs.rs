@@ -1,4 +1,4 @@
-//! Output files of design §7: names, columns, empty fields, atomic writing; and `check`.
+//! Output files (`docs/outputs.md`): names, columns, empty fields, atomic writing; and `check`.
 
 use crate::project_common::*;
 use stemcast::project::run_scenario;

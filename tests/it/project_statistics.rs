@@ -111,9 +111,9 @@ fn expected_survivors_and_variance_match_the_handbook_example() {
 
 #[test]
 fn monte_carlo_mean_equals_expected_without_stand_feedback() {
-    // Design §4 (Fortin & Langevin 2012): without stand covariates and with growth at the
-    // mean, each record's survival path is independent of the others, so the Monte Carlo
-    // mean estimates the expected trajectory; SE from the replicate SD.
+    // docs/maths.md#monte-carlo-driver (Fortin & Langevin 2012): without stand covariates and with
+    // growth at the mean, each record's survival path is independent of the others, so the Monte
+    // Carlo mean estimates the expected trajectory; SE from the replicate SD.
     let d = Dir::new();
     d.write(
         "s.toml",
@@ -151,9 +151,9 @@ fn monte_carlo_mean_equals_expected_without_stand_feedback() {
 
 #[test]
 fn binomial_whole_stems_with_area_have_the_right_mean() {
-    // Design §4: with area_ha, record i stands for e_i·area stems; survivors
-    // ~ Binomial(n_i, p), so stems/ha after one period has mean 1000·p and, over 40 records of
-    // 25 stems/ha on 0.4 ha (10 stems each), SE √(1000·p(1−p)/0.4 / R) per hectare.
+    // docs/maths.md#binomial-survival-of-whole-stems: with area_ha, record i stands for e_i·area
+    // stems; survivors ~ Binomial(n_i, p), so stems/ha after one period has mean 1000·p and, over
+    // 40 records of 25 stems/ha on 0.4 ha (10 stems each), SE √(1000·p(1−p)/0.4 / R) per hectare.
     let d = Dir::new();
     let p = 0.7;
     d.write("s.toml", &constant_survival(p, 5));
@@ -168,8 +168,9 @@ fn binomial_whole_stems_with_area_have_the_right_mean() {
 
 #[test]
 fn ten_year_steps_equal_the_five_year_projection_at_shared_years() {
-    // Design §4: outputs sit at step boundaries of the same 5-year sub-steps, and draws are
-    // keyed by sub-step, so both drivers give identical values at years 10, 20, ….
+    // docs/maths.md#the-projection-step: outputs sit at step boundaries of the same 5-year
+    // sub-steps, and draws are keyed by sub-step, so both drivers give identical values at years
+    // 10, 20, ….
     let d = Dir::new();
     d.write("s.toml", &w2_survival());
     d.write("g.toml", &w2_growth());

@@ -1,5 +1,5 @@
-//! PROJECT-W2 (design §9) against the expected trajectory of independent NumPy and R
-//! implementations (tests/fixtures/projection/README.md).
+//! PROJECT-W2 (`docs/performance.md#project-w2`) against the expected trajectory of independent
+//! NumPy and R implementations (tests/fixtures/projection/README.md).
 
 use crate::project_common::{close, fixtures, w2_growth, w2_survival, Dir};
 use stemcast::project::{run_scenario, Driver, Metric, RunOptions};

@@ -1,4 +1,4 @@
-//! Generated cohorts and attributes (design §4–5): quantile diameters, numeric and
+//! Generated cohorts and attributes (`docs/scenario.md#cohort`): quantile diameters, numeric and
 //! categorical attributes given to every tree, and parameter draws through a whole run.
 
 use crate::project_common::*;

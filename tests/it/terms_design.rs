@@ -1,5 +1,5 @@
-//! Design-matrix construction from terms (design §6). Check values are derived analytically
-//! from the term definitions (stated beside each assertion).
+//! Design-matrix construction from terms (`docs/model-files.md#term-grammar`). Check values are
+//! derived analytically from the term definitions (stated beside each assertion).
 
 use std::collections::BTreeMap;
 

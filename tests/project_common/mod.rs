@@ -48,7 +48,8 @@ fn toml_string(t: &str) -> String {
     format!("\"{}\"", t.replace('\\', "\\\\").replace('"', "\\\""))
 }
 
-/// The PROJECT-W2 survival model (design §9), built exactly as conformance.py `check_w2` does.
+/// The PROJECT-W2 survival model (`docs/performance.md#project-w2`), built exactly as
+/// conformance.py `check_w2` does.
 pub fn w2_survival() -> String {
     model_toml(
         "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5",
@@ -61,7 +62,7 @@ pub fn w2_survival() -> String {
     )
 }
 
-/// The PROJECT-W2 growth model (design §9).
+/// The PROJECT-W2 growth model (`docs/performance.md#project-w2`).
 pub fn w2_growth() -> String {
     model_toml(
         "kind = \"growth\"\nresponse = \"ln_bai\"\nperiod_years = 5\nresidual_sd = 0.4",
