@@ -3,7 +3,8 @@
 
 use std::path::PathBuf;
 
-use stemcast::scenario::{check, Scenario};
+use stemcast::project::check;
+use stemcast::scenario::Scenario;
 
 /// Validate a scenario and print its projection plan.
 #[derive(Debug, Clone, clap::Args)]

@@ -8,6 +8,7 @@ mod frame;
 mod remeasure;
 mod status;
 mod table;
+mod tree_list;
 mod tree_stream;
 mod trees;
 mod units;
@@ -20,8 +21,10 @@ pub use remeasure::{
 };
 pub use status::{Outcome, Status, UnknownStatus, ACCEPTED_STATUS};
 pub use table::{parse_table, read_table, sha256_hex, Table, TableOptions};
+pub(crate) use tree_list::Constant;
+pub use tree_list::{Attribute, AttributeValues, TreeList};
 pub use tree_stream::TreeListStream;
-pub use trees::{read_single_stand, read_tree_lists, TreeList, TreeListSpec};
+pub use trees::{read_single_stand, read_tree_lists, TreeListSpec, TreeRecords};
 pub use units::{
     qmd_from_basal_area, reineke_sdi, Units, UnknownUnits, CM_PER_INCH, HA_PER_ACRE,
     REINEKE_EXPONENT,

@@ -5,7 +5,7 @@ use std::io::Read;
 use std::path::Path;
 
 use super::table::{csv_reader, read_header};
-use super::trees::{line_of, open, read_record, Layout, TreeList, TreeListSpec};
+use super::trees::{line_of, open, read_record, Layout, TreeListSpec, TreeRecords};
 use super::DataError;
 
 /// Reads a tree list one stand at a time, for batch runs over many stands: memory holds one
@@ -56,7 +56,7 @@ impl<R: Read> TreeListStream<R> {
         })
     }
 
-    fn next_stand(&mut self) -> Result<Option<TreeList>, DataError> {
+    fn next_stand(&mut self) -> Result<Option<TreeRecords>, DataError> {
         let mut records = Vec::new();
         if let Some(first) = self.pending.take() {
             records.push(first);
@@ -102,7 +102,7 @@ impl<R: Read> TreeListStream<R> {
 }
 
 impl<R: Read> Iterator for TreeListStream<R> {
-    type Item = Result<TreeList, DataError>;
+    type Item = Result<TreeRecords, DataError>;
 
     /// The next stand; after an error the stream ends.
     fn next(&mut self) -> Option<Self::Item> {

@@ -24,7 +24,7 @@ pub struct TreeListSpec {
 
 /// The trees of one stand, as a structure of arrays in file order.
 #[derive(Debug, Clone, PartialEq)]
-pub struct TreeList {
+pub struct TreeRecords {
     /// The file name used in messages.
     pub source: String,
     /// The stand id; `None` when the file has no stand column.
@@ -43,7 +43,7 @@ pub struct TreeList {
     pub attributes: BTreeMap<String, FrameColumn>,
 }
 
-impl TreeList {
+impl TreeRecords {
     /// Number of trees.
     pub fn len(&self) -> usize {
         self.tree.len()
@@ -131,13 +131,16 @@ impl Layout {
     }
 
     /// Build one stand's tree list from its records.
-    pub(super) fn build(&self, records: &[(csv::ByteRecord, u64)]) -> Result<TreeList, DataError> {
+    pub(super) fn build(
+        &self,
+        records: &[(csv::ByteRecord, u64)],
+    ) -> Result<TreeRecords, DataError> {
         let n = records.len();
         let stand = match (self.stand, records.first()) {
             (Some(s), Some((r, _))) => Some(String::from_utf8_lossy(trim_cell(&r[s])).into_owned()),
             _ => None,
         };
-        let mut list = TreeList {
+        let mut list = TreeRecords {
             source: self.source.clone(),
             stand,
             tree: Vec::with_capacity(n),
@@ -220,7 +223,7 @@ impl Layout {
 /// column names or ragged rows; [`DataError::MissingColumn`] without `tree`, `dbh` or
 /// `expansion`; [`DataError::Cell`] for an empty stand or tree id, a tree id repeated within a
 /// stand, and a `dbh` or `expansion` that is not a positive number.
-pub fn read_tree_lists(path: &Path, spec: &TreeListSpec) -> Result<Vec<TreeList>, DataError> {
+pub fn read_tree_lists(path: &Path, spec: &TreeListSpec) -> Result<Vec<TreeRecords>, DataError> {
     let source = path.display().to_string();
     let file = open(path)?;
     let mut reader = csv_reader(std::io::BufReader::new(file));
@@ -255,7 +258,7 @@ pub fn read_tree_lists(path: &Path, spec: &TreeListSpec) -> Result<Vec<TreeList>
 ///
 /// # Errors
 /// As [`read_tree_lists`], and [`DataError::File`] when the file holds several stands.
-pub fn read_single_stand(path: &Path, spec: &TreeListSpec) -> Result<TreeList, DataError> {
+pub fn read_single_stand(path: &Path, spec: &TreeListSpec) -> Result<TreeRecords, DataError> {
     let mut lists = read_tree_lists(path, spec)?;
     if lists.len() > 1 {
         const SHOWN: usize = 5;
@@ -267,10 +270,13 @@ pub fn read_single_stand(path: &Path, spec: &TreeListSpec) -> Result<TreeList, D
         if lists.len() > SHOWN {
             ids.push(format!("… {} in all", lists.len()));
         }
-        return Err(DataError::file(
+        return Err(DataError::cell(
             path.display().to_string(),
+            lists[1].lines.first().copied().unwrap_or(0),
+            spec.names.stand.clone(),
             format!(
-                "several stands ({}); `stemcast project` takes one stand: use `stemcast batch` for several",
+                "stand \"{}\" is a second stand (stands: {}); `stemcast project` takes one stand: use `stemcast batch` for several",
+                lists[1].stand.as_deref().unwrap_or_default(),
                 ids.join(", ")
             ),
         ));

@@ -9,8 +9,7 @@ use super::growth::GrowthFit;
 pub use super::survival_summary::{survival_json, survival_text};
 use crate::model::file::GrowthResponse;
 
-/// The caution printed under every summary and report.
-pub const CAUTION: &str = "Caution: model estimates with stated uncertainty, valid only within the range of the fitting data. Defer to local regulations and to licensed professional foresters before acting on them.";
+pub use crate::report::CAUTION;
 
 pub(crate) fn fmt_p(p: f64) -> String {
     if p < 1e-16 {

@@ -2,8 +2,10 @@
 //! growth OLS, diagnostics, and the model file format.
 
 pub mod annualized;
+mod compile_error;
 pub mod design;
 pub mod diagnostics;
+pub(crate) mod fastmath;
 pub mod file;
 pub mod firth;
 pub mod glm;
@@ -11,6 +13,7 @@ pub mod growth;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
+pub mod predictor;
 pub mod robust;
 pub mod separation;
 pub mod stored;

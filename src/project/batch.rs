@@ -8,8 +8,8 @@
 use std::collections::HashSet;
 
 use super::{rng, run_scenario, ProjectionResult, RunOptions};
-use crate::data::{DataError, TreeList as StandTrees};
-use crate::scenario::{Scenario, TreeList};
+use crate::data::{DataError, TreeList, TreeRecords};
+use crate::scenario::Scenario;
 use crate::Error;
 
 /// A 64-bit hash of a stand id: the stand component of its random draws and the basis of
@@ -98,7 +98,7 @@ pub fn run_batch<I>(
     each: &mut dyn FnMut(&ProjectionResult) -> Result<(), Error>,
 ) -> Result<BatchCounts, Error>
 where
-    I: IntoIterator<Item = Result<StandTrees, DataError>>,
+    I: IntoIterator<Item = Result<TreeRecords, DataError>>,
 {
     let mut counts = BatchCounts::default();
     for stand in stands {

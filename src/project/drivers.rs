@@ -2,7 +2,6 @@
 //! replicates. One [`Engine`] holds everything prepared once per run.
 
 use super::actions::{self, Removal};
-use super::evaluator::attribute_tables;
 use super::harvest::HarvestPlan;
 use super::params::CovarianceFactor;
 use super::result::{HarvestAction, TreeRow};
@@ -10,6 +9,7 @@ use super::rng::{self, Purpose};
 use super::stand::{Initial, Stand};
 use super::step::{observe_ranges, sub_step, GrowthRule, Mortality, StepContext, SurvivalRule};
 use super::summary::Trace;
+use crate::model::predictor::attribute_tables;
 use crate::scenario::{ActionKind, Scenario};
 
 /// Width of the DBH classes of `classes.csv`, cm.

@@ -7,12 +7,10 @@ mod actions;
 mod batch;
 mod binomial;
 mod compare;
-mod compile_error;
 mod drivers;
-pub mod evaluator;
-mod fastmath;
 mod harvest;
 mod params;
+mod plan;
 mod result;
 mod rng;
 mod stand;
@@ -27,6 +25,7 @@ pub use batch::{run_batch, stand_hash, BatchCounts, BatchOptions, Shard};
 pub use compare::{
     compare_scenarios, validate_comparison, CompareOptions, Comparison, DifferenceRow,
 };
+pub use plan::{check, CheckReport};
 pub use result::{
     ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,
     TreeRow, YearSummary,

@@ -2,13 +2,13 @@
 //! survival probability per record → mortality → growth of the survivors → DBH order restored.
 
 use super::binomial;
-use super::evaluator::{CompiledPredictor, Covariates, Source};
-use super::fastmath;
 use super::rng;
 use super::stand::{Stand, Totals};
 use crate::data::Units;
+use crate::model::fastmath;
 use crate::model::file::{GrowthResponse, IntervalKind, Outcome};
 use crate::model::link::Link;
+use crate::model::predictor::{CompiledPredictor, Covariates, Source};
 use crate::scenario::Scenario;
 
 /// Survival over one sub-step of `h` years.
@@ -82,7 +82,7 @@ impl GrowthRule {
         let m = &s.growth.model;
         let cm = match m.common.units {
             Units::Metric => 1.0,
-            Units::Imperial => super::evaluator::CM_PER_IN,
+            Units::Imperial => crate::model::predictor::CM_PER_IN,
         };
         let h = s.sub_step_years;
         let scale = match m.response {

@@ -2,7 +2,6 @@
 //! first, then written to a temporary file in the target folder and renamed into place, so a
 //! failure leaves no partial output.
 
-mod atomic;
 mod batch;
 mod charts;
 pub(crate) use charts::PALETTE;
@@ -15,7 +14,10 @@ mod tables;
 
 use std::path::{Path, PathBuf};
 
-pub use atomic::write_files_atomically;
+/// The caution printed under every summary and report.
+pub const CAUTION: &str = "Caution: model estimates with stated uncertainty, valid only within the range of the fitting data. Defer to local regulations and to licensed professional foresters before acting on them.";
+
+pub use crate::atomic::write_files_atomically;
 pub use batch::{batch_rows, rows_per_stand, BatchOutput, BATCH_COLUMNS};
 pub use charts::{
     band_chart_svg, metric_label, metric_series, metrics_chart_svg, stems_chart_svg,

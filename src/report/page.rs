@@ -214,7 +214,7 @@ pub(crate) fn settings_section(results: &[ProjectionResult], facts: &[Option<Fac
 
 /// The caution without its own "Caution:" lead (the page adds one).
 pub(crate) fn caution() -> String {
-    let c = crate::fit::summary::CAUTION;
+    let c = super::CAUTION;
     let rest = c.strip_prefix("Caution: ").unwrap_or(c);
     let mut chars = rest.chars();
     let text: String = chars

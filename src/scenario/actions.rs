@@ -4,8 +4,8 @@
 //! to codes.
 
 use super::schema::{ActionEntry, ThinEntry, ThinFrom};
-use super::trees::{AttributeValues, TreeList};
 use super::ScenarioError;
+use crate::data::{AttributeValues, TreeList};
 use crate::model::stored::ModelCommon;
 
 /// A validated management action.

@@ -7,11 +7,10 @@ use std::path::Path;
 
 use super::actions::{self, Action};
 use super::schema::ActionEntry;
-use super::trees::{Attribute, AttributeValues, Constant, TreeList};
 use super::{Scenario, ScenarioError};
-use crate::data::FrameColumn;
+use crate::data::{Constant, TreeList};
+use crate::model::predictor::{CompileError, CompiledPredictor};
 use crate::model::stored::ModelCommon;
-use crate::project::evaluator::{CompileError, CompiledPredictor};
 use crate::tolerance::WHOLE_STEMS_ATOL;
 
 /// The parts of a scenario file that are checked against the trees.
@@ -169,50 +168,6 @@ impl Scenario {
             survival_eval: bound.survival_eval,
             growth_eval: bound.growth_eval,
             ..self.clone()
-        })
-    }
-}
-
-impl TryFrom<crate::data::TreeList> for TreeList {
-    type Error = ScenarioError;
-
-    /// The trees of one stand read by [`crate::data`] (a stand of
-    /// [`crate::data::TreeListStream`]), as a scenario's trees. A stand without a stand
-    /// column is called `1`, as in a one-stand tree list.
-    ///
-    /// # Errors
-    /// [`ScenarioError::Cell`] naming file, line and column for an empty attribute cell.
-    fn try_from(list: crate::data::TreeList) -> Result<TreeList, ScenarioError> {
-        let mut attributes = Vec::with_capacity(list.attributes.len());
-        for (name, column) in list.attributes {
-            let empty = |row: usize| ScenarioError::Cell {
-                file: list.source.clone(),
-                line: list.lines.get(row).copied().unwrap_or(0),
-                column: name.clone(),
-                message: "empty attribute value".into(),
-            };
-            let values = match column {
-                FrameColumn::Numeric(v) => {
-                    if let Some(row) = v.iter().position(|x| x.is_nan()) {
-                        return Err(empty(row));
-                    }
-                    AttributeValues::Numeric(v)
-                }
-                FrameColumn::Text { levels, codes, .. } => {
-                    if let Some(row) = codes.iter().position(|&c| c == u32::MAX) {
-                        return Err(empty(row));
-                    }
-                    AttributeValues::Categorical { levels, codes }
-                }
-            };
-            attributes.push(Attribute { name, values });
-        }
-        Ok(TreeList {
-            stand: list.stand.unwrap_or_else(|| "1".into()),
-            tree_ids: list.tree,
-            dbh_cm: list.dbh,
-            stems_per_ha: list.expansion,
-            attributes,
         })
     }
 }

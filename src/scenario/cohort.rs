@@ -6,8 +6,8 @@ use std::path::Path;
 
 use super::load::InputFile;
 use super::schema::{DbhDistribution, ScenarioFile};
-use super::trees::{read_tree_list, TreeList};
 use super::ScenarioError;
+use crate::data::{read_single_stand, sha256_hex, TreeList, TreeListSpec};
 
 /// Diameters at the quantiles `(i − ½)/n`, i = 1..n, of `dist`, in increasing order.
 ///
@@ -95,6 +95,7 @@ pub(crate) fn trees_of(
     raw: &ScenarioFile,
     base: &Path,
     file: &str,
+    categorical: &[String],
     inputs: &mut Vec<InputFile>,
 ) -> Result<TreeList, ScenarioError> {
     let err = |key: &str, message: String| ScenarioError::Key {
@@ -121,11 +122,15 @@ pub(crate) fn trees_of(
         let shown = path.display().to_string();
         let bytes = std::fs::read(&path)
             .map_err(|e| err("cohort.trees", format!("{shown} cannot be read: {e}")))?;
-        let list = read_tree_list(&path, &shown)?;
+        let spec = TreeListSpec {
+            categorical: categorical.to_vec(),
+            ..TreeListSpec::default()
+        };
+        let list = TreeList::try_from(read_single_stand(&path, &spec)?)?;
         inputs.push(InputFile {
             role: "trees".into(),
             path,
-            sha256: super::load::sha256_hex(&bytes),
+            sha256: sha256_hex(&bytes),
         });
         return Ok(list);
     }

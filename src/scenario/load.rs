@@ -3,16 +3,16 @@
 
 use std::path::{Path, PathBuf};
 
-use sha2::{Digest, Sha256};
+use crate::data::sha256_hex;
 
 use super::actions::Action;
 use super::bind::Binding;
 use super::schema::{key_path_at, ScenarioFile, UncertaintySection};
-use super::trees::TreeList;
 use super::{cohort, ScenarioError};
+use crate::data::TreeList;
 use crate::model::file::{GrowthResponse, ModelFile};
+use crate::model::predictor::CompiledPredictor;
 use crate::model::stored::{GrowthModel, Model, ModelCommon, SurvivalModel};
-use crate::project::evaluator::CompiledPredictor;
 
 /// Which sources of uncertainty the Monte Carlo driver draws.
 pub type Uncertainty = UncertaintySection;
@@ -77,13 +77,6 @@ pub struct Scenario {
     /// What binds the trees to the models and actions, kept so that [`Scenario::with_trees`]
     /// can bind another stand.
     pub(crate) binding: Binding,
-}
-
-pub(crate) fn sha256_hex(bytes: &[u8]) -> String {
-    Sha256::digest(bytes)
-        .iter()
-        .map(|b| format!("{b:02x}"))
-        .collect()
 }
 
 impl Scenario {
@@ -261,7 +254,11 @@ impl Scenario {
                 }
             }
         }
-        let trees = cohort::trees_of(&raw, base, file, &mut inputs)?;
+        let categorical: Vec<String> = [&survival.common, &growth.common]
+            .iter()
+            .flat_map(|c| c.categorical.keys().cloned())
+            .collect();
+        let trees = cohort::trees_of(&raw, base, file, &categorical, &mut inputs)?;
         let binding = Binding {
             attributes: raw.cohort.attributes.clone(),
             area_ha: raw.cohort.area_ha,

@@ -5,16 +5,13 @@ mod actions;
 mod bind;
 mod cohort;
 mod load;
-mod plan;
 pub mod schema;
-mod trees;
 
+pub use crate::data::{Attribute, AttributeValues, TreeList};
 pub use actions::{Action, ActionKind, SetValue, ThinTarget};
 pub use cohort::quantile_diameters;
 pub use load::{InputFile, LoadedModel, Scenario, Uncertainty};
-pub use plan::{check, CheckReport};
 pub use schema::{DbhDistribution, ThinFrom};
-pub use trees::{read_tree_list, Attribute, AttributeValues, TreeList};
 
 /// An error in a scenario file or in the inputs it names. Every variant names the file, and
 /// the key path or the line and column.
@@ -42,6 +39,9 @@ pub enum ScenarioError {
         /// What is wrong, quoting the value.
         message: String,
     },
+    /// A tree list that cannot be read (file, line and column).
+    #[error(transparent)]
+    Data(#[from] crate::data::DataError),
     /// A tree list that cannot be used as a whole.
     #[error("{file}: {message}")]
     TreeFile {

@@ -1,9 +1,10 @@
 //! The library side of `batch`: shards, the stand hash, and `Scenario::with_trees`.
 
 use crate::project_common::Dir;
+use stemcast::data::TreeList;
 use stemcast::data::{TreeListSpec, TreeListStream};
 use stemcast::project::{run_scenario, stand_hash, RunOptions, Shard};
-use stemcast::scenario::{Scenario, TreeList};
+use stemcast::scenario::Scenario;
 
 #[test]
 fn shards_are_one_based_parts() {

@@ -75,7 +75,9 @@ fn project_takes_one_stand() {
     let err = read_single_stand(&path, &TreeListSpec::default()).unwrap_err();
     let message = err.to_string();
     assert!(
-        message.contains("trees.csv: several stands (\"B\", \"A\")"),
+        message.contains(
+            "line 4, column \"stand\": stand \"A\" is a second stand (stands: \"B\", \"A\")"
+        ),
         "{message}"
     );
     assert!(message.contains("use `stemcast batch`"), "{message}");

@@ -39,6 +39,7 @@ mod judge_covariance;
 mod judge_curves;
 mod judge_diagnostics;
 mod judge_firth;
+mod layers;
 mod model_file;
 mod ols_reference;
 mod project_actions;

@@ -100,7 +100,7 @@ fn monte_carlo_writes_percentiles_and_no_tree_file() {
 fn check_reports_the_plan_and_extrapolation() {
     let d = Dir::new();
     let s = scenario(&d);
-    let report = stemcast::scenario::check(&s).unwrap();
+    let report = stemcast::project::check(&s).unwrap();
     let plan = report.plan.join("\n");
     assert!(plan.contains("30 records"), "{plan}");
     assert!(plan.contains("treatment (released)"), "{plan}");

@@ -287,7 +287,7 @@ fn tree_list_with_duplicate_ids_or_several_stands() {
     assert_bad_in(
         &d,
         &scenario_toml(20, 5, 10, "", "trees = \"trees.csv\""),
-        &["trees.csv", "line 4", "column \"tree\"", "first on line 2"],
+        &["trees.csv", "line 4", "column \"tree\"", "lines 2 and 4"],
     );
     d.write(
         "trees.csv",
@@ -341,4 +341,21 @@ fn cohort_with_non_positive_diameters() {
         ),
         &["sc.toml", "cohort.dbh", "not positive"],
     );
+}
+
+/// `project` reads tree lists with the one reader of `stemcast::data`, so a CRLF file's bad cell
+/// is reported on its real line (counted by hand: header = line 1), and a duplicated `dbh`
+/// column or an empty stand id is refused as `batch` refuses them.
+#[test]
+fn tree_list_errors_match_the_batch_reader() {
+    let d = Dir::new();
+    d.write("s.toml", &w2_survival());
+    d.write("g.toml", &w2_growth());
+    let scenario = scenario_toml(20, 5, 10, "", "trees = \"trees.csv\"");
+    d.write("trees.csv", "tree,dbh,expansion\r\n1,10,25\r\n2,x,25\r\n");
+    assert_bad_in(&d, &scenario, &["trees.csv", "line 3", "column \"dbh\""]);
+    d.write("trees.csv", "tree,dbh,dbh,expansion\n1,10,11,25\n");
+    assert_bad_in(&d, &scenario, &["trees.csv", "dbh"]);
+    d.write("trees.csv", "stand,tree,dbh,expansion\n,1,10,25\n");
+    assert_bad_in(&d, &scenario, &["trees.csv", "line 2", "column \"stand\""]);
 }

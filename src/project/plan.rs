@@ -1,9 +1,10 @@
 //! What `check` reports: the projection plan in words, and extrapolation warnings from the
 //! expected trajectory against the models' fitting ranges.
 
-use super::{AttributeValues, Scenario};
+use super::{run_scenario, RunOptions};
+use crate::data::AttributeValues;
 use crate::model::stored::LinearPredictor;
-use crate::project::{run_scenario, RunOptions};
+use crate::scenario::Scenario;
 
 /// The result of checking a scenario.
 #[derive(Debug, Clone, PartialEq)]

@@ -4,12 +4,12 @@
 
 use std::collections::BTreeMap;
 
+use super::design::CategoricalLevels;
 use super::fastmath;
+use super::stored::LinearPredictor;
+use super::terms::{Factor, Transform};
 use crate::data::Units;
-use crate::model::design::CategoricalLevels;
-use crate::model::stored::LinearPredictor;
-use crate::model::terms::{Factor, Transform};
-use crate::scenario::{AttributeValues, TreeList};
+use crate::data::{AttributeValues, TreeList};
 
 /// cm per inch.
 pub use super::compile_error::CompileError;
