@@ -86,7 +86,7 @@ impl TryFrom<TreeRecords> for TreeList {
     type Error = DataError;
 
     /// The trees of one stand read by [`super::read_tree_lists`] (a stand of
-    /// [`TreeRecordsStream`]), as a scenario's trees. A stand without a stand
+    /// [`super::TreeListStream`]), as a scenario's trees. A stand without a stand
     /// column is called `1`, as in a one-stand tree list.
     ///
     /// # Errors

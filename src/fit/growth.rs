@@ -38,6 +38,19 @@ pub struct GrowthSpec {
     pub years: Years,
 }
 
+impl GrowthSpec {
+    /// Least squares of ln(basal-area increment) on `predictors`, reading `path` with the
+    /// default columns; the interval comes from a `years` column when the file has one.
+    pub fn new(path: impl Into<std::path::PathBuf>, predictors: &str) -> Self {
+        GrowthSpec {
+            data: DataOptions::new(path),
+            predictors: predictors.to_string(),
+            target: GrowthTarget::Increment(GrowthResponse::LnBai),
+            years: Years::Default,
+        }
+    }
+}
+
 /// A fitted growth model.
 #[derive(Debug, Clone)]
 pub struct GrowthFit {

@@ -41,6 +41,32 @@ pub struct DataOptions {
     pub units: Units,
 }
 
+impl Default for DataOptions {
+    /// No file yet, the default column names, an intercept, metric units.
+    fn default() -> Self {
+        DataOptions {
+            path: PathBuf::new(),
+            names: ColumnNames::default(),
+            use_columns: Vec::new(),
+            categorical: Vec::new(),
+            references: BTreeMap::new(),
+            intercept: true,
+            units: Units::default(),
+        }
+    }
+}
+
+impl DataOptions {
+    /// Read `path` with the default column names (`stand`, `tree`, `dbh`, `dbh2`, `alive`,
+    /// `years`, `expansion`), an intercept and metric units.
+    pub fn new(path: impl Into<PathBuf>) -> Self {
+        DataOptions {
+            path: path.into(),
+            ..DataOptions::default()
+        }
+    }
+}
+
 /// The remeasurement interval as given on the command line.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Years {

@@ -50,6 +50,26 @@ pub struct SurvivalSpec {
     pub link: Link,
 }
 
+impl SurvivalSpec {
+    /// A logit model of "alive at the second measurement" on `predictors` (the term grammar of
+    /// docs/model-files.md#terms), reading `path` with the default columns; the interval comes
+    /// from a `years` column when the file has one. Change the public fields for the rest.
+    pub fn new(path: impl Into<std::path::PathBuf>, predictors: &str) -> Self {
+        SurvivalSpec {
+            data: DataOptions::new(path),
+            predictors: predictors.to_string(),
+            response: SurvivalResponse::Status {
+                outcome: Outcome::default(),
+            },
+            weights: None,
+            offset: None,
+            years: Years::Default,
+            interval: IntervalKind::default(),
+            link: Link::default(),
+        }
+    }
+}
+
 /// Options of `fit survival` beyond the model specification.
 #[derive(Debug, Clone, Default)]
 pub struct FitOptions {

@@ -115,6 +115,59 @@ impl Scenario {
     /// # Errors
     /// As [`Scenario::read`].
     pub fn parse(text: &str, file: &str, base: &Path) -> Result<Scenario, crate::Error> {
+        Scenario::parse_from(text, file, base, None)
+    }
+
+    /// A scenario from TOML text whose `[models]` names models held in memory instead of
+    /// files: `survival = "s"` takes the model given as `("s", model)` in `models`. Tree-list
+    /// paths are relative to the working folder. Nothing is read from disk for the models,
+    /// and `run.json` records them as "in memory".
+    ///
+    /// # Errors
+    /// As [`Scenario::read`], and [`ScenarioError::Key`] naming `models.survival` or
+    /// `models.growth` when `models` has no model of that name.
+    ///
+    /// # Examples
+    /// ```
+    /// use stemcast::model::stored::Model;
+    /// use stemcast::model::file::ModelFile;
+    /// use stemcast::scenario::Scenario;
+    ///
+    /// let survival = Model::from_file(ModelFile::parse(
+    ///     "kind = \"survival\"\nlink = \"logit\"\nperiod_years = 5\n\
+    ///      [[coefficients]]\nterm = \"(intercept)\"\nestimate = 2.0\n", "s")?, "s")?;
+    /// let growth = Model::from_file(ModelFile::parse(
+    ///     "kind = \"growth\"\nresponse = \"ln_bai\"\nperiod_years = 5\nresidual_sd = 0.3\n\
+    ///      [[coefficients]]\nterm = \"(intercept)\"\nestimate = 0.5\n\
+    ///      [[coefficients]]\nterm = \"ln(dbh)\"\nestimate = 1.0\n", "g")?, "g")?;
+    /// let scenario = Scenario::with_models(
+    ///     r#"
+    ///     name = "planted"
+    ///     horizon_years = 20
+    ///     step_years = 5
+    ///     [models]
+    ///     survival = "s"
+    ///     growth = "g"
+    ///     [cohort]
+    ///     stems_per_ha = 1200
+    ///     records = 100
+    ///     dbh = { distribution = "lognormal", median = 12.0, gsd = 1.3 }
+    ///     "#,
+    ///     &[("s", &survival), ("g", &growth)],
+    /// )?;
+    /// assert_eq!(scenario.trees.len(), 100);
+    /// # Ok::<(), stemcast::Error>(())
+    /// ```
+    pub fn with_models(text: &str, models: &[(&str, &Model)]) -> Result<Scenario, crate::Error> {
+        Scenario::parse_from(text, "(scenario in memory)", Path::new("."), Some(models))
+    }
+
+    fn parse_from(
+        text: &str,
+        file: &str,
+        base: &Path,
+        given: Option<&[(&str, &Model)]>,
+    ) -> Result<Scenario, crate::Error> {
         let err = |key: &str, message: String| ScenarioError::Key {
             file: file.to_string(),
             key: key.to_string(),
@@ -172,6 +225,25 @@ impl Scenario {
         let mut inputs = Vec::new();
         let mut read_model =
             |key: &str, rel: &str, role: &str| -> Result<(PathBuf, Model), crate::Error> {
+                if let Some(given) = given {
+                    let (_, model) =
+                        given.iter().find(|(name, _)| *name == rel).ok_or_else(|| {
+                            let names: Vec<&str> = given.iter().map(|(n, _)| *n).collect();
+                            err(
+                                key,
+                                format!(
+                                    "no model called \"{rel}\" was given (given: {})",
+                                    names.join(", ")
+                                ),
+                            )
+                        })?;
+                    inputs.push(InputFile {
+                        role: role.into(),
+                        path: PathBuf::from(rel),
+                        sha256: "in memory".into(),
+                    });
+                    return Ok((PathBuf::from(rel), (*model).clone()));
+                }
                 let path = base.join(rel);
                 let bytes = std::fs::read(&path).map_err(|e| {
                     err(
