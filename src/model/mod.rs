@@ -8,13 +8,17 @@ pub mod file;
 pub mod firth;
 pub mod glm;
 pub mod growth;
+pub mod height;
+pub mod height_file;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
+pub mod nls;
 pub mod robust;
 pub mod separation;
 pub mod stored;
 pub mod terms;
+pub mod volume;
 
 use crate::data::DataError;
 
