@@ -203,7 +203,9 @@ impl ModelFile {
             return Err(ModelError::File {
                 file: file.to_string(),
                 key: "kind".into(),
-                message: format!("this is a {kind} model; a survival or growth model is needed here"),
+                message: format!(
+                    "this is a {kind} model; a survival or growth model is needed here"
+                ),
             });
         }
         toml::from_str(text).map_err(|e| ModelError::File {

@@ -131,11 +131,7 @@ impl HeightForm {
                 let u = -(-b * d).exp_m1();
                 let uc = u.powf(c);
                 out[0] = uc;
-                out[1] = if u > 0.0 {
-                    a * c * uc / u * d * e
-                } else {
-                    0.0
-                };
+                out[1] = if u > 0.0 { a * c * uc / u * d * e } else { 0.0 };
                 out[2] = if u > 0.0 { a * uc * u.ln() } else { 0.0 };
             }
             HeightForm::Naslund => {
@@ -164,7 +160,12 @@ impl HeightForm {
     /// # Errors
     /// [`ModelError::Invalid`] when the data cannot give start values (no tree taller than
     /// breast height, or all usable diameters equal); give `--start` then.
-    pub fn start_values(self, bh: f64, dbh: &[f64], height: &[f64]) -> Result<Vec<f64>, ModelError> {
+    pub fn start_values(
+        self,
+        bh: f64,
+        dbh: &[f64],
+        height: &[f64],
+    ) -> Result<Vec<f64>, ModelError> {
         let no_start = |why: &str| {
             ModelError::Invalid(format!(
                 "no automatic start values for the {} form: {why}; give them with --start",
@@ -193,10 +194,13 @@ impl HeightForm {
                 let pairs = dbh.iter().zip(height).filter(|(_, &h)| h > bh);
                 let (x, y): (Vec<f64>, Vec<f64>) = match self {
                     HeightForm::Naslund => pairs.map(|(&d, &h)| (d, d / (h - bh).sqrt())).unzip(),
-                    _ => pairs.map(|(&d, &h)| (1.0 / (d + 1.0), (h - bh).ln())).unzip(),
+                    _ => pairs
+                        .map(|(&d, &h)| (1.0 / (d + 1.0), (h - bh).ln()))
+                        .unzip(),
                 };
-                let (intercept, slope) = simple_regression(&x, &y)
-                    .ok_or_else(|| no_start("fewer than two distinct diameters above breast height"))?;
+                let (intercept, slope) = simple_regression(&x, &y).ok_or_else(|| {
+                    no_start("fewer than two distinct diameters above breast height")
+                })?;
                 Ok(vec![intercept, slope])
             }
         }
@@ -238,7 +242,11 @@ impl HeightCurve {
     /// # Errors
     /// [`ModelError::Invalid`] when the number of parameters does not match the form or a
     /// value is not finite.
-    pub fn new(form: HeightForm, parameters: Vec<f64>, breast_height: f64) -> Result<Self, ModelError> {
+    pub fn new(
+        form: HeightForm,
+        parameters: Vec<f64>,
+        breast_height: f64,
+    ) -> Result<Self, ModelError> {
         if parameters.len() != form.n_params() {
             return Err(ModelError::Invalid(format!(
                 "the {} form has {} parameters ({}), got {}",
@@ -248,7 +256,11 @@ impl HeightCurve {
                 parameters.len()
             )));
         }
-        if let Some(v) = parameters.iter().chain([&breast_height]).find(|v| !v.is_finite()) {
+        if let Some(v) = parameters
+            .iter()
+            .chain([&breast_height])
+            .find(|v| !v.is_finite())
+        {
             return Err(ModelError::Invalid(format!("{v} is not a finite number")));
         }
         Ok(HeightCurve {
@@ -309,7 +321,10 @@ mod tests {
                 let mut g = vec![0.0; theta.len()];
                 form.gradient(d, theta, &mut g);
                 for (a, n) in g.iter().zip(numeric_gradient(form, d, theta)) {
-                    assert!((a - n).abs() <= 1e-7 * n.abs().max(1e-3), "{form} d={d}: {a} vs {n}");
+                    assert!(
+                        (a - n).abs() <= 1e-7 * n.abs().max(1e-3),
+                        "{form} d={d}: {a} vs {n}"
+                    );
                 }
             }
         }
@@ -326,7 +341,9 @@ mod tests {
             .start_values(1.3, &[10.0, 20.0], &[5.3, 10.3])
             .unwrap();
         assert!((s[0] - 10.0 / 3.0).abs() < 1e-12 && (s[1] - 1.0 / 6.0).abs() < 1e-12);
-        assert!(HeightForm::LogReciprocal.start_values(1.3, &[10.0], &[5.0]).is_err());
+        assert!(HeightForm::LogReciprocal
+            .start_values(1.3, &[10.0], &[5.0])
+            .is_err());
     }
 
     #[test]

@@ -131,15 +131,25 @@ impl HeightModel {
             message,
         };
         if raw.kind != ModelKind::Height {
-            return Err(err("kind", "a height model file has kind = \"height\"".into()));
+            return Err(err(
+                "kind",
+                "a height model file has kind = \"height\"".into(),
+            ));
         }
         let units = raw.units.unwrap_or_default();
         let bh = raw.breast_height.unwrap_or(breast_height(units));
         if !(bh > 0.0 && bh.is_finite()) {
-            return Err(err("breast_height", format!("{bh} is not a positive height")));
+            return Err(err(
+                "breast_height",
+                format!("{bh} is not a positive height"),
+            ));
         }
         if !raw.levels.is_empty() && raw.by.is_none() {
-            return Err(err("by", "missing: name the column whose levels [levels] lists, e.g. by = \"species\"".into()));
+            return Err(err(
+                "by",
+                "missing: name the column whose levels [levels] lists, e.g. by = \"species\""
+                    .into(),
+            ));
         }
         let default = if raw.coefficients.is_empty() {
             if raw.levels.is_empty() {
@@ -158,7 +168,10 @@ impl HeightModel {
         let mut levels = BTreeMap::new();
         for (level, entry) in &raw.levels {
             let prefix = format!("levels.{level}.");
-            levels.insert(level.clone(), curve_from(entry, raw.form, bh, &prefix, &err)?);
+            levels.insert(
+                level.clone(),
+                curve_from(entry, raw.form, bh, &prefix, &err)?,
+            );
         }
         Ok(HeightModel {
             form: raw.form,
@@ -212,28 +225,48 @@ fn curve_from(
     let mut values = vec![f64::NAN; names.len()];
     for c in &entry.coefficients {
         let Some(k) = names.iter().position(|n| *n == c.term) else {
-            return Err(err(&key, format!("term `{}` is not a parameter of the {form} form ({})", c.term, names.join(", "))));
+            return Err(err(
+                &key,
+                format!(
+                    "term `{}` is not a parameter of the {form} form ({})",
+                    c.term,
+                    names.join(", ")
+                ),
+            ));
         };
         if !values[k].is_nan() {
             return Err(err(&key, format!("term `{}` appears twice", c.term)));
         }
         if !c.estimate.is_finite() {
-            return Err(err(&key, format!("term `{}`: {} is not a finite number", c.term, c.estimate)));
+            return Err(err(
+                &key,
+                format!("term `{}`: {} is not a finite number", c.term, c.estimate),
+            ));
         }
         values[k] = c.estimate;
     }
     if let Some(k) = values.iter().position(|v| v.is_nan()) {
-        return Err(err(&key, format!("missing term `{}` of the {form} form", names[k])));
+        return Err(err(
+            &key,
+            format!("missing term `{}` of the {form} form", names[k]),
+        ));
     }
     if let Some(sd) = entry.residual_sd {
         if !(sd >= 0.0 && sd.is_finite()) {
-            return Err(err(&format!("{prefix}residual_sd"), format!("{sd} is not a non-negative number")));
+            return Err(err(
+                &format!("{prefix}residual_sd"),
+                format!("{sd} is not a non-negative number"),
+            ));
         }
     }
     if let Some(cov) = &entry.covariance {
         let p = names.len();
-        if cov.terms.len() != p || cov.matrix.len() != p || cov.matrix.iter().any(|r| r.len() != p) {
-            return Err(err(&format!("{prefix}covariance"), format!("must be {p}×{p} over the terms {}", names.join(", "))));
+        if cov.terms.len() != p || cov.matrix.len() != p || cov.matrix.iter().any(|r| r.len() != p)
+        {
+            return Err(err(
+                &format!("{prefix}covariance"),
+                format!("must be {p}×{p} over the terms {}", names.join(", ")),
+            ));
         }
     }
     HeightCurve::new(form, values, bh).map_err(|e| err(&key, e.to_string()))
@@ -268,7 +301,11 @@ estimate = 2.5
     // 1.3 + 100/(2.5 + 1.6)² = 1.3 + 100/16.81; with a = 2, b = 0.2 it is 1.3 + 100/16.
     #[test]
     fn per_level_curves_and_the_default() {
-        let m = HeightModel::from_file(HeightModelFile::parse(PER_SPECIES, "h.toml").unwrap(), "h.toml").unwrap();
+        let m = HeightModel::from_file(
+            HeightModelFile::parse(PER_SPECIES, "h.toml").unwrap(),
+            "h.toml",
+        )
+        .unwrap();
         assert_eq!(m.breast_height, 1.3);
         let a = m.curve(Some("A")).unwrap().height(10.0);
         assert!((a - (1.3 + 100.0 / 16.81)).abs() < 1e-12);
@@ -280,13 +317,19 @@ estimate = 2.5
 
     #[test]
     fn errors_name_the_key() {
-        let text = PER_SPECIES.replace("term = \"b\"\nestimate = 0.16", "term = \"c\"\nestimate = 0.16");
-        let e = HeightModel::from_file(HeightModelFile::parse(&text, "h.toml").unwrap(), "h.toml").unwrap_err();
+        let text = PER_SPECIES.replace(
+            "term = \"b\"\nestimate = 0.16",
+            "term = \"c\"\nestimate = 0.16",
+        );
+        let e = HeightModel::from_file(HeightModelFile::parse(&text, "h.toml").unwrap(), "h.toml")
+            .unwrap_err();
         assert!(e.to_string().contains("levels.A.coefficients"), "{e}");
-        let e = HeightModelFile::parse("kind = \"height\"\nform = \"weibull\"\n", "h.toml").unwrap_err();
+        let e = HeightModelFile::parse("kind = \"height\"\nform = \"weibull\"\n", "h.toml")
+            .unwrap_err();
         assert!(e.to_string().contains("line 2"), "{e}");
         let text = "kind = \"height\"\nform = \"naslund\"\n";
-        let e = HeightModel::from_file(HeightModelFile::parse(text, "h.toml").unwrap(), "h.toml").unwrap_err();
+        let e = HeightModel::from_file(HeightModelFile::parse(text, "h.toml").unwrap(), "h.toml")
+            .unwrap_err();
         assert!(e.to_string().contains("no curve"), "{e}");
     }
 

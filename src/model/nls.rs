@@ -123,7 +123,13 @@ struct Local {
 /// With r = H − f(θ) and J = ∂f/∂θ = QR, the relative offset is ‖Q₁ᵀr‖ / ‖Q₂ᵀr‖ (Bates and
 /// Watts 1981, R `nls` without scaling): ‖Q₁ᵀr‖² = ‖Jδ‖² for the Gauss–Newton increment
 /// δ = (JᵀJ)⁻¹Jᵀr, and ‖Q₂ᵀr‖² = RSS − ‖Jδ‖².
-fn local(form: HeightForm, bh: f64, dbh: &[f64], height: &[f64], theta: &[f64]) -> Result<Local, ModelError> {
+fn local(
+    form: HeightForm,
+    bh: f64,
+    dbh: &[f64],
+    height: &[f64],
+    theta: &[f64],
+) -> Result<Local, ModelError> {
     let (n, p) = (dbh.len(), theta.len());
     let mut j = Array2::<f64>::zeros((n, p));
     let mut r = Array1::<f64>::zeros(n);
@@ -139,7 +145,11 @@ fn local(form: HeightForm, bh: f64, dbh: &[f64], height: &[f64], theta: &[f64]) 
     if !rss.is_finite() || j.iter().any(|v| !v.is_finite()) {
         return Err(ModelError::Invalid("not finite".into()));
     }
-    let names: Vec<String> = form.parameter_names().iter().map(|s| s.to_string()).collect();
+    let names: Vec<String> = form
+        .parameter_names()
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
     let ls = least_squares_qr(j.view(), r.view(), &names)?;
     let step = j.dot(&Array1::from(ls.coefficients));
     let along: f64 = step.iter().map(|v| v * v).sum();
@@ -223,12 +233,14 @@ pub fn fit_height_curve(
         }
     }
     let theta: Vec<f64> = problem.theta.iter().copied().collect();
-    let not_converged = |rss: f64, why: String| ModelError::NotConverged {
+    let not_converged = |rss: f64, why: String| {
+        ModelError::NotConverged {
         iterations: evaluations,
         deviance: rss,
         hint: format!(
             "Levenberg–Marquardt stopped at {theta:?} ({why}); try other start values with --start, or another form"
         ),
+    }
     };
     let l = match last {
         Some(l) if l.relative_offset <= NLS_RELATIVE_OFFSET => l,
@@ -246,7 +258,16 @@ pub fn fit_height_curve(
             ))
         }
     };
-    Ok(statistics(form, bh, dbh, start, theta, &l, evaluations, runs)?)
+    Ok(statistics(
+        form,
+        bh,
+        dbh,
+        start,
+        theta,
+        &l,
+        evaluations,
+        runs,
+    )?)
 }
 
 #[allow(clippy::too_many_arguments)]
@@ -281,7 +302,11 @@ fn statistics(
     Ok(NlsFit {
         form,
         breast_height: bh,
-        names: form.parameter_names().iter().map(|s| s.to_string()).collect(),
+        names: form
+            .parameter_names()
+            .iter()
+            .map(|s| s.to_string())
+            .collect(),
         start: start.to_vec(),
         coefficients: theta,
         std_errors,
@@ -323,9 +348,21 @@ mod tests {
 
     #[test]
     fn too_few_trees_and_bad_starts_are_input_errors() {
-        let e = fit_height_curve(HeightForm::ChapmanRichards, 1.3, &[1.0, 2.0, 3.0], &[2.0, 3.0, 4.0], &[5.0, 0.1, 1.0]);
+        let e = fit_height_curve(
+            HeightForm::ChapmanRichards,
+            1.3,
+            &[1.0, 2.0, 3.0],
+            &[2.0, 3.0, 4.0],
+            &[5.0, 0.1, 1.0],
+        );
         assert!(matches!(e, Err(ModelError::Invalid(_))));
-        let e = fit_height_curve(HeightForm::Naslund, 1.3, &[1.0, 2.0, 3.0], &[2.0, 3.0, 4.0], &[f64::NAN, 0.1]);
+        let e = fit_height_curve(
+            HeightForm::Naslund,
+            1.3,
+            &[1.0, 2.0, 3.0],
+            &[2.0, 3.0, 4.0],
+            &[f64::NAN, 0.1],
+        );
         assert!(matches!(e, Err(ModelError::Invalid(_))));
     }
 }

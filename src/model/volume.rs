@@ -155,34 +155,68 @@ impl VolumeModel {
             message,
         };
         if raw.kind != ModelKind::Volume {
-            return Err(err("kind", "a volume model file has kind = \"volume\"".into()));
+            return Err(err(
+                "kind",
+                "a volume model file has kind = \"volume\"".into(),
+            ));
         }
         let names = raw.form.parameter_names();
         let mut values = vec![f64::NAN; names.len()];
         for c in &raw.coefficients {
             let Some(k) = names.iter().position(|n| *n == c.term) else {
-                return Err(err("coefficients", format!("term `{}` is not a coefficient of the {} form ({})", c.term, raw.form.as_str(), names.join(", "))));
+                return Err(err(
+                    "coefficients",
+                    format!(
+                        "term `{}` is not a coefficient of the {} form ({})",
+                        c.term,
+                        raw.form.as_str(),
+                        names.join(", ")
+                    ),
+                ));
             };
             if !values[k].is_nan() || !c.estimate.is_finite() {
-                return Err(err("coefficients", format!("term `{}` appears twice or is not a finite number", c.term)));
+                return Err(err(
+                    "coefficients",
+                    format!("term `{}` appears twice or is not a finite number", c.term),
+                ));
             }
             values[k] = c.estimate;
         }
         if let Some(k) = values.iter().position(|v| v.is_nan()) {
-            return Err(err("coefficients", format!("missing term `{}` of the {} form", names[k], raw.form.as_str())));
+            return Err(err(
+                "coefficients",
+                format!(
+                    "missing term `{}` of the {} form",
+                    names[k],
+                    raw.form.as_str()
+                ),
+            ));
         }
         if let Some(sd) = raw.residual_sd {
             if !(sd >= 0.0 && sd.is_finite()) {
-                return Err(err("residual_sd", format!("{sd} is not a non-negative number")));
+                return Err(err(
+                    "residual_sd",
+                    format!("{sd} is not a non-negative number"),
+                ));
             }
         }
-        let factor = match (raw.log_bias_correction.unwrap_or(false), raw.form, raw.residual_sd) {
+        let factor = match (
+            raw.log_bias_correction.unwrap_or(false),
+            raw.form,
+            raw.residual_sd,
+        ) {
             (false, _, _) => 1.0,
             (true, VolumeForm::Combined, _) => {
-                return Err(err("log_bias_correction", "applies to the logarithmic form only".into()))
+                return Err(err(
+                    "log_bias_correction",
+                    "applies to the logarithmic form only".into(),
+                ))
             }
             (true, VolumeForm::Logarithmic, None) => {
-                return Err(err("log_bias_correction", "needs residual_sd (the residual SD of ln V)".into()))
+                return Err(err(
+                    "log_bias_correction",
+                    "needs residual_sd (the residual SD of ln V)".into(),
+                ))
             }
             (true, VolumeForm::Logarithmic, Some(sd)) => log_bias_factor(sd),
         };
@@ -204,7 +238,9 @@ impl VolumeModel {
         let b = &self.coefficients;
         match self.form {
             VolumeForm::Combined => b[0] + b[1] * dbh * dbh * height,
-            VolumeForm::Logarithmic => (b[0] + b[1] * dbh.ln() + b[2] * height.ln()).exp() * self.factor,
+            VolumeForm::Logarithmic => {
+                (b[0] + b[1] * dbh.ln() + b[2] * height.ln()).exp() * self.factor
+            }
         }
     }
 
@@ -230,10 +266,15 @@ mod tests {
     #[test]
     fn combined_volume() {
         let text = "kind = \"volume\"\nform = \"combined\"\n[[coefficients]]\nterm = \"b0\"\nestimate = 0.01\n[[coefficients]]\nterm = \"b1\"\nestimate = 3e-5\n";
-        let m = VolumeModel::from_file(VolumeModelFile::parse(text, "v.toml").unwrap(), "v.toml").unwrap();
+        let m = VolumeModel::from_file(VolumeModelFile::parse(text, "v.toml").unwrap(), "v.toml")
+            .unwrap();
         assert!((m.tree_volume(30.0, 25.0) - 0.685).abs() < 1e-15);
-        let bad = text.replace("log_bias", "x").replace("form = \"combined\"", "form = \"combined\"\nlog_bias_correction = true");
-        let e = VolumeModel::from_file(VolumeModelFile::parse(&bad, "v.toml").unwrap(), "v.toml").unwrap_err();
+        let bad = text.replace("log_bias", "x").replace(
+            "form = \"combined\"",
+            "form = \"combined\"\nlog_bias_correction = true",
+        );
+        let e = VolumeModel::from_file(VolumeModelFile::parse(&bad, "v.toml").unwrap(), "v.toml")
+            .unwrap_err();
         assert!(e.to_string().contains("log_bias_correction"), "{e}");
     }
 
