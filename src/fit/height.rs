@@ -208,15 +208,9 @@ fn name_level(e: ModelError, by: Option<&str>, level: Option<&str>) -> ModelErro
         return e;
     };
     match e {
-        ModelError::NotConverged {
-            iterations,
-            deviance,
-            hint,
-        } => ModelError::NotConverged {
-            iterations,
-            deviance,
-            hint: format!("{by} = {level}: {hint}"),
-        },
+        ModelError::CurveNotConverged(m) => {
+            ModelError::CurveNotConverged(format!("{by} = {level}: {m}"))
+        }
         ModelError::Invalid(m) => ModelError::Invalid(format!("{by} = {level}: {m}")),
         other => other,
     }

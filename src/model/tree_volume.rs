@@ -24,7 +24,11 @@ impl<'a> TreeVolumeModels<'a> {
     /// # Errors
     /// [`ModelError::Invalid`] when the two models use different units, or a level (or, with
     /// no levels, the whole tree list) has no curve.
-    pub fn new(height: &'a HeightModel, volume: &'a VolumeModel, levels: &[String]) -> Result<Self, ModelError> {
+    pub fn new(
+        height: &'a HeightModel,
+        volume: &'a VolumeModel,
+        levels: &[String],
+    ) -> Result<Self, ModelError> {
         if height.units != volume.units {
             return Err(ModelError::Invalid(format!(
                 "the height model is in {} units and the volume model in {} units ({}); use models in the same units",
@@ -81,7 +85,12 @@ impl<'a> TreeVolumeModels<'a> {
     /// Volume per unit area of a tree list whose heights come from the height model:
     /// Σ nᵢ v(Dᵢ, H(Dᵢ)) with nᵢ the stems per unit area of record i (per hectare in metric
     /// units, per acre in imperial).
-    pub fn volume_per_area(&self, dbh: &[f64], codes: Option<&[u32]>, stems_per_area: &[f64]) -> f64 {
+    pub fn volume_per_area(
+        &self,
+        dbh: &[f64],
+        codes: Option<&[u32]>,
+        stems_per_area: &[f64],
+    ) -> f64 {
         let mut height = vec![0.0; dbh.len()];
         self.heights(dbh, codes, &mut height);
         self.volume.volume_per_area(dbh, &height, stems_per_area)
