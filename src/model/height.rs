@@ -221,7 +221,7 @@ fn simple_regression(x: &[f64], y: &[f64]) -> Option<(f64, f64)> {
     let my = y.iter().sum::<f64>() / n as f64;
     let sxx: f64 = x.iter().map(|v| (v - mx) * (v - mx)).sum();
     let sxy: f64 = x.iter().zip(y).map(|(a, b)| (a - mx) * (b - my)).sum();
-    if !(sxx > 0.0) {
+    if sxx.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
         return None;
     }
     let slope = sxy / sxx;

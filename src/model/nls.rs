@@ -266,16 +266,7 @@ pub fn fit_height_curve(
             ))
         }
     };
-    Ok(statistics(
-        form,
-        bh,
-        dbh,
-        start,
-        theta,
-        &l,
-        evaluations,
-        runs,
-    )?)
+    statistics(form, bh, dbh, start, theta, &l, evaluations, runs)
 }
 
 #[allow(clippy::too_many_arguments)]
