@@ -96,3 +96,45 @@ impl<'a> TreeVolumeModels<'a> {
         self.volume.volume_per_area(dbh, &height, stems_per_area)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::height_file::HeightModelFile;
+    use crate::model::volume::VolumeModelFile;
+
+    fn models(height_units: &str, by: bool) -> (HeightModel, VolumeModel) {
+        let h = if by {
+            "kind = \"height\"\nform = \"naslund\"\nby = \"species\"\n[[levels.A.coefficients]]\nterm = \"a\"\nestimate = 2.0\n[[levels.A.coefficients]]\nterm = \"b\"\nestimate = 0.2\n".to_string()
+        } else {
+            format!("kind = \"height\"\nform = \"naslund\"\nunits = \"{height_units}\"\n[[coefficients]]\nterm = \"a\"\nestimate = 2.0\n[[coefficients]]\nterm = \"b\"\nestimate = 0.2\n")
+        };
+        let v = "kind = \"volume\"\nform = \"combined\"\n[[coefficients]]\nterm = \"b0\"\nestimate = 0.0\n[[coefficients]]\nterm = \"b1\"\nestimate = 1e-4\n";
+        (
+            HeightModel::from_file(HeightModelFile::parse(&h, "h").unwrap(), "h").unwrap(),
+            VolumeModel::from_file(VolumeModelFile::parse(v, "v").unwrap(), "v").unwrap(),
+        )
+    }
+
+    #[test]
+    fn models_must_share_units_and_cover_the_trees() {
+        let (h, v) = models("imperial", false);
+        let e = TreeVolumeModels::new(&h, &v, &[]).unwrap_err().to_string();
+        assert!(e.contains("imperial") && e.contains("metric"), "{e}");
+        let (h, v) = models("metric", true);
+        assert!(TreeVolumeModels::new(&h, &v, &[]).is_err());
+        let e = TreeVolumeModels::new(&h, &v, &["A".into(), "B".into()])
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("species B"), "{e}");
+    }
+
+    // Derived analytically: Näslund a = 2, b = 0.2 at D = 10 gives H = 1.3 + 100/16 = 7.55 m;
+    // V = 1e-4 · 100 · 7.55 = 0.0755 m³, times 40 stems/ha = 3.02 m³/ha.
+    #[test]
+    fn one_curve_for_a_tree_list_without_levels() {
+        let (h, v) = models("metric", false);
+        let m = TreeVolumeModels::new(&h, &v, &[]).unwrap();
+        assert!((m.volume_per_area(&[10.0], None, &[40.0]) - 3.02).abs() < 1e-12);
+    }
+}
