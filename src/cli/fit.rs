@@ -1,4 +1,5 @@
-//! `stemcast fit survival` and `stemcast fit growth`.
+//! `stemcast fit survival` and `stemcast fit growth` (`fit height` and `fit volume` are in
+//! `fit_height.rs`).
 
 use std::path::PathBuf;
 
@@ -23,6 +24,11 @@ pub enum FitCommand {
     /// Fit a diameter-growth model: least squares on ln(basal-area increment), the annual
     /// diameter increment, or a given column.
     Growth(GrowthArgs),
+    /// Fit a height–diameter curve (Chapman–Richards, Näslund or log-reciprocal) by
+    /// nonlinear least squares, for all trees or per level of a column such as species.
+    Height(super::fit_height::HeightArgs),
+    /// Fit a volume equation (combined variable on D²H, or logarithmic) by least squares.
+    Volume(super::fit_height::VolumeArgs),
 }
 
 fn write_model(path: &Option<PathBuf>, model: &ModelFile) -> Result<(), Error> {
@@ -94,6 +100,8 @@ fn check_svg_possible(spec: &SurvivalSpec) -> Result<(), Error> {
 pub fn run(cmd: FitCommand) -> Result<(), Error> {
     match cmd {
         FitCommand::Survival(a) => survival(a)?,
+        FitCommand::Height(a) => super::fit_height::run_height(a)?,
+        FitCommand::Volume(a) => super::fit_height::run_volume(a)?,
         FitCommand::Growth(a) => {
             let target = match &a.response_col {
                 Some(c) => GrowthTarget::Column(c.clone()),

@@ -7,6 +7,7 @@ mod compare;
 mod demo;
 mod fit;
 mod fit_args;
+mod fit_height;
 mod project;
 mod rank;
 
@@ -34,7 +35,8 @@ enum Command {
     Batch(batch::Args),
     /// Project several scenarios with common random numbers and compare them with the first.
     Compare(compare::Args),
-    /// Fit a survival or growth model from a remeasurement CSV.
+    /// Fit a survival or growth model from a remeasurement CSV, or a height-diameter curve or
+    /// volume equation from measured trees.
     #[command(subcommand)]
     Fit(Box<fit::FitCommand>),
     /// Compare candidate predictor sets of a survival model: AIC, weights, BIC, AUC, CV log-loss.

@@ -7,13 +7,17 @@ pub mod curves;
 pub mod estimate;
 pub mod folds;
 pub mod growth;
+pub mod hd_summary;
+pub mod height;
 pub mod judge;
 pub mod load;
+pub mod measured;
 pub mod rank;
 pub mod rank_render;
 pub mod summary;
 pub mod survival;
 pub mod survival_summary;
+pub mod volume;
 
 use std::collections::BTreeMap;
 use std::path::PathBuf;

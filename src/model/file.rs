@@ -11,7 +11,7 @@ use super::design::CategoricalLevels;
 use super::ModelError;
 pub use crate::data::Outcome;
 
-/// Survival or growth.
+/// What a model file describes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum ModelKind {
@@ -19,6 +19,10 @@ pub enum ModelKind {
     Survival,
     /// A diameter-growth model (OLS on a transformed response).
     Growth,
+    /// A height–diameter curve ([`HeightModelFile`](super::height_file::HeightModelFile)).
+    Height,
+    /// A volume equation ([`VolumeModelFile`](super::volume::VolumeModelFile)).
+    Volume,
 }
 
 /// How the remeasurement interval enters the survival model
@@ -194,6 +198,17 @@ impl ModelFile {
     /// # Errors
     /// [`ModelError::File`] with the TOML position and key.
     pub fn parse(text: &str, file: &str) -> Result<ModelFile, ModelError> {
+        // Height and volume files have keys of their own; say what they are rather than
+        // which key is unknown.
+        if let Some(kind @ ("height" | "volume")) = peek_kind(text).as_deref() {
+            return Err(ModelError::File {
+                file: file.to_string(),
+                key: "kind".into(),
+                message: format!(
+                    "this is a {kind} model; a survival or growth model is needed here"
+                ),
+            });
+        }
         toml::from_str(text).map_err(|e| ModelError::File {
             file: file.to_string(),
             key: toml_error_location(text, &e),
@@ -208,6 +223,12 @@ impl ModelFile {
     pub fn to_toml(&self) -> Result<String, ModelError> {
         toml::to_string(self).map_err(|e| ModelError::Invalid(format!("model file: {e}")))
     }
+}
+
+/// The `kind` of model-file text, if it parses as TOML and has a string `kind`.
+pub fn peek_kind(text: &str) -> Option<String> {
+    let table: toml::Table = toml::from_str(text).ok()?;
+    table.get("kind")?.as_str().map(str::to_string)
 }
 
 /// Describe where in `text` a TOML error happened: "line L" (the key path is in the message).

@@ -10,14 +10,19 @@ pub mod file;
 pub mod firth;
 pub mod glm;
 pub mod growth;
+pub mod height;
+pub mod height_file;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
+pub mod nls;
 pub mod predictor;
 pub mod robust;
 pub mod separation;
 pub mod stored;
 pub mod terms;
+pub mod tree_volume;
+pub mod volume;
 
 use crate::data::DataError;
 
@@ -63,6 +68,10 @@ pub enum ModelError {
         /// What to try.
         hint: String,
     },
+    /// A height–diameter curve did not converge (a runtime failure, exit code 1); the message
+    /// says where the iterations stopped and what to try.
+    #[error("{0}")]
+    CurveNotConverged(String),
     /// A model file that cannot be read or does not describe a usable model.
     #[error("{file}: {key}: {message}")]
     File {
@@ -81,6 +90,9 @@ pub enum ModelError {
 impl ModelError {
     /// True for failures of the computation itself (exit code 1) rather than of the input.
     pub fn is_runtime(&self) -> bool {
-        matches!(self, ModelError::NotConverged { .. })
+        matches!(
+            self,
+            ModelError::NotConverged { .. } | ModelError::CurveNotConverged(_)
+        )
     }
 }

@@ -156,6 +156,10 @@ impl Model {
             fit: raw.fit.clone(),
         };
         match raw.kind {
+            ModelKind::Height | ModelKind::Volume => Err(err(
+                "kind",
+                "height and volume models cannot serve as survival or growth models".into(),
+            )),
             ModelKind::Survival => {
                 for (key, present) in [
                     ("response", raw.response.is_some()),

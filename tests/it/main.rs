@@ -55,3 +55,6 @@ mod report_browser;
 mod scenario_cohort;
 mod scenario_errors;
 mod terms_design;
+mod hd_height;
+mod hd_height_cli;
+mod hd_volume;
