@@ -8,6 +8,8 @@ pub mod file;
 pub mod firth;
 pub mod glm;
 pub mod growth;
+pub mod hurdle;
+pub mod ingrowth_trees;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
@@ -15,6 +17,8 @@ pub mod robust;
 pub mod separation;
 pub mod stored;
 pub mod terms;
+pub mod truncated;
+pub mod truncated_fit;
 
 use crate::data::DataError;
 
