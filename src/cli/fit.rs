@@ -23,6 +23,9 @@ pub enum FitCommand {
     /// Fit a diameter-growth model: least squares on ln(basal-area increment), the annual
     /// diameter increment, or a given column.
     Growth(GrowthArgs),
+    /// Fit an ingrowth model from a plot-period table: logistic regression for any new tree
+    /// in the period and a zero-truncated negative binomial (or Poisson) count given any.
+    Ingrowth(Box<super::fit_ingrowth::IngrowthArgs>),
 }
 
 fn write_model(path: &Option<PathBuf>, model: &ModelFile) -> Result<(), Error> {
@@ -94,6 +97,7 @@ fn check_svg_possible(spec: &SurvivalSpec) -> Result<(), Error> {
 pub fn run(cmd: FitCommand) -> Result<(), Error> {
     match cmd {
         FitCommand::Survival(a) => survival(a)?,
+        FitCommand::Ingrowth(a) => super::fit_ingrowth::run(&a)?,
         FitCommand::Growth(a) => {
             let target = match &a.response_col {
                 Some(c) => GrowthTarget::Column(c.clone()),

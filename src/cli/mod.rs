@@ -7,6 +7,7 @@ mod compare;
 mod demo;
 mod fit;
 mod fit_args;
+mod fit_ingrowth;
 mod project;
 mod rank;
 

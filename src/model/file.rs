@@ -193,6 +193,17 @@ impl ModelFile {
     /// # Errors
     /// [`ModelError::File`] with the TOML position and key.
     pub fn parse(text: &str, file: &str) -> Result<ModelFile, ModelError> {
+        let kind = text
+            .parse::<toml::Table>()
+            .ok()
+            .and_then(|t| t.get("kind").cloned());
+        if kind.as_ref().and_then(toml::Value::as_str) == Some("ingrowth") {
+            return Err(ModelError::File {
+                file: file.to_string(),
+                key: "kind".into(),
+                message: "an ingrowth model, not a survival or growth model; use it as a scenario's `[models] ingrowth` (see docs/ingrowth.md)".into(),
+            });
+        }
         toml::from_str(text).map_err(|e| ModelError::File {
             file: file.to_string(),
             key: toml_error_location(text, &e),

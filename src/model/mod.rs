@@ -9,6 +9,8 @@ pub mod firth;
 pub mod glm;
 pub mod growth;
 pub mod hurdle;
+pub mod ingrowth;
+pub mod ingrowth_file;
 pub mod ingrowth_trees;
 pub(crate) mod irls;
 pub mod linalg;

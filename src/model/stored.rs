@@ -249,7 +249,7 @@ impl Model {
     }
 }
 
-fn predictor_from(
+pub(crate) fn predictor_from(
     entries: &[CoefficientEntry],
     categorical: &BTreeMap<String, CategoricalLevels>,
     err: &dyn Fn(&str, String) -> ModelError,
@@ -326,7 +326,7 @@ fn predictor_from(
     })
 }
 
-fn covariance_from(
+pub(crate) fn covariance_from(
     c: &CovarianceEntry,
     names: &[String],
     err: &dyn Fn(&str, String) -> ModelError,
