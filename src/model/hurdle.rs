@@ -198,3 +198,60 @@ pub fn hurdle_expectation(
         expected_per_area_per_year: expected / exposure,
     }
 }
+
+/// The log-likelihoods (ℓ_any, ℓ_count) of both parts at given parameters, e.g. to evaluate a
+/// stored model on new plot periods. `alpha` is ignored for the Poisson.
+///
+/// # Formula
+/// ℓ_any = Σ [a ln p + (1 − a) ln(1 − p)] with a = 1{N > 0}, p = 1/(1 + e^(−x_anyᵀγ)), computed
+/// as ln p = −ln(1 + e^(−η)), ln(1 − p) = −ln(1 + e^η) (without overflow); ℓ_count is the zero-truncated
+/// log-likelihood of [`crate::model::truncated_fit::truncated_log_likelihood`] on the rows with
+/// N > 0, offset ln(area·L).
+///
+/// # Errors
+/// [`ModelError::Invalid`] for inconsistent lengths.
+pub fn hurdle_log_likelihood(
+    data: &PlotPeriods,
+    family: CountFamily,
+    gamma: &[f64],
+    beta: &[f64],
+    alpha: f64,
+) -> Result<(f64, f64), ModelError> {
+    let n = data.count.len();
+    if data.x_any.dim() != (n, gamma.len()) || data.area.len() != n || data.years.len() != n {
+        return Err(ModelError::Invalid(format!(
+            "plot periods: {n} counts, a {:?} any-part design for {} coefficients",
+            data.x_any.dim(),
+            gamma.len()
+        )));
+    }
+    let mut any = 0.0;
+    for (row, &c) in data.x_any.rows().into_iter().zip(data.count) {
+        let eta: f64 = row.iter().zip(gamma).map(|(x, g)| x * g).sum();
+        any -= softplus(if c > 0 { -eta } else { eta });
+    }
+    let positive: Vec<usize> = (0..n).filter(|&i| data.count[i] > 0).collect();
+    let x_count = data.x_count.select(Axis(0), &positive);
+    let y: Vec<u64> = positive.iter().map(|&i| data.count[i]).collect();
+    let offset: Vec<f64> = positive
+        .iter()
+        .map(|&i| (data.area[i] * data.years[i]).ln())
+        .collect();
+    let count = super::truncated_fit::truncated_log_likelihood(
+        &CountData {
+            x: x_count.view(),
+            terms: data.count_terms,
+            y: &y,
+            offset: &offset,
+        },
+        family,
+        beta,
+        alpha,
+    )?;
+    Ok((any, count))
+}
+
+/// ln(1 + eˣ) without overflow.
+fn softplus(x: f64) -> f64 {
+    x.max(0.0) + (-x.abs()).exp().ln_1p()
+}
