@@ -2,7 +2,7 @@
 //! (tests/fixtures/ingrowth/make_forest_types.R: R 4.2.2 glm for the any part; for the count
 //! parts an R Newton iteration with deriv3() symbolic derivatives of the dnbinom/dpois
 //! zero-truncated row log-likelihood, to a step below 1e-12; pscl 1.5.5 hurdle as a cross-check
-//! to ≤ 4e-8). It differs from the shared cases: unequal plot areas with ln(area) as a term, a
+//! to ≤ 5e-8). It differs from the shared cases: unequal plot areas with ln(area) as a term, a
 //! categorical forest type, other predictors in the count part, and role columns not called
 //! `area` and `years`. Tolerances: estimates, SEs, z and predictions rtol 1e-6; covariance
 //! 1e-6·√(V_ii V_jj); p-values rtol 1e-4; log-likelihoods and AIC/BIC atol 1e-6 (as the shared
