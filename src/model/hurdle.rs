@@ -3,7 +3,7 @@
 //! Poisson, log link, offset ln(area·L)) for the number of new trees on the plot periods that
 //! have any. The likelihood factorises, so the two parts are fitted separately and their
 //! log-likelihoods add (`docs/ingrowth.md`, "The hurdle model"). [`hurdle_expectation`] gives
-//! P(any), E[N | N > 0] and E[N] for given linear predictors, area and period.
+//! P(any), E\[N | N > 0\] and E\[N\] for given linear predictors, area and period.
 
 use ndarray::{ArrayView2, Axis};
 use serde::Serialize;
@@ -76,7 +76,10 @@ pub fn fit_hurdle(data: &PlotPeriods, family: CountFamily) -> Result<HurdleFit, 
             data.years.len()
         )));
     }
-    if let Some(i) = (0..n).find(|&i| !(data.area[i] > 0.0 && data.years[i] > 0.0)) {
+    let positive_finite = |v: f64| v > 0.0 && v.is_finite();
+    if let Some(i) =
+        (0..n).find(|&i| !(positive_finite(data.area[i]) && positive_finite(data.years[i])))
+    {
         return Err(ModelError::Invalid(format!(
             "plot period {} has area {} and period {}; both must be positive",
             i + 1,
@@ -150,11 +153,11 @@ pub struct HurdleExpectation {
     pub mu: f64,
     /// P₀ of the untruncated distribution.
     pub p_zero: f64,
-    /// E[N | N > 0] = μ / (1 − P₀).
+    /// E\[N | N > 0\] = μ / (1 − P₀).
     pub mean_given_any: f64,
-    /// E[N] = P(any)·E[N | N > 0].
+    /// E\[N\] = P(any)·E\[N | N > 0\].
     pub expected: f64,
-    /// E[N] / (area·L): new trees per unit area per year.
+    /// E\[N\] / (area·L): new trees per unit area per year.
     pub expected_per_area_per_year: f64,
 }
 
@@ -165,14 +168,14 @@ pub struct HurdleExpectation {
 ///
 /// # Formula
 /// P(any) = 1/(1 + e^(−η_any)); μ = e^(η_count)·area·L; P₀ = (1 + αμ)^(−1/α) (Poisson e^(−μ));
-/// E[N | N > 0] = μ/(1 − P₀); E[N] = P(any)·E[N | N > 0].
+/// E\[N | N > 0\] = μ/(1 − P₀); E\[N\] = P(any)·E\[N | N > 0\].
 ///
 /// # Examples
 /// ```
 /// use stemcast::model::hurdle::hurdle_expectation;
 /// use stemcast::model::truncated::CountFamily;
 /// // Derived analytically: η_any = 0 gives P(any) = 1/2; μ = e^0·0.5·4 = 2 with α = 0.5 gives
-/// // P₀ = 1/4 and E[N | N > 0] = 8/3, so E[N] = 4/3.
+/// // P₀ = 1/4 and E\[N | N > 0\] = 8/3, so E\[N\] = 4/3.
 /// let e = hurdle_expectation(0.0, 0.0, 0.5, 4.0, CountFamily::NegativeBinomial, 0.5);
 /// assert!((e.expected - 4.0 / 3.0).abs() < 1e-15);
 /// ```

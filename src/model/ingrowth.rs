@@ -166,7 +166,7 @@ impl IngrowthModel {
     }
 
     /// Expected ingrowth over one period of `years` on `area` (ha, or acres with imperial
-    /// units): P(any), E[N | N > 0] and E[N] (see [`hurdle_expectation`]).
+    /// units): P(any), E\[N | N > 0\] and E\[N\] (see [`hurdle_expectation`]).
     ///
     /// # Errors
     /// As [`IngrowthModel::linear_predictors`]; [`ModelError::Invalid`] for a non-positive

@@ -57,10 +57,10 @@ fn ln_zero_probability(family: CountFamily, mu: f64, alpha: f64) -> f64 {
     }
 }
 
-/// The mean of the count given that it is positive, E[N | N > 0].
+/// The mean of the count given that it is positive, E\[N | N > 0\].
 ///
 /// # Formula
-/// E[N | N > 0] = μ / (1 − P₀), with 1 − P₀ = −expm1(ln P₀) so that small μ keeps its digits
+/// E\[N | N > 0\] = μ / (1 − P₀), with 1 − P₀ = −expm1(ln P₀) so that small μ keeps its digits
 /// (the limit as μ → 0 is 1).
 ///
 /// # Examples

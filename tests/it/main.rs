@@ -2,6 +2,7 @@
 #[path = "../common/mod.rs"]
 mod common;
 mod ingrowth_cli;
+mod ingrowth_model_file;
 mod ingrowth_own;
 mod ingrowth_recovery;
 mod ingrowth_reference;
