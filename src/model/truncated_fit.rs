@@ -13,13 +13,11 @@ use super::ModelError;
 
 mod newton;
 
-use newton::{newton, not_converged, Problem};
+use newton::{newton, not_converged, Problem, ALPHA_FLOOR};
 
 /// Dispersions tried for the starting α; the one with the highest likelihood at the
 /// truncated-Poisson β is the start.
 const ALPHA_GRID: [f64; 9] = [1e-3, 0.01, 0.05, 0.1, 0.3, 1.0, 3.0, 10.0, 30.0];
-/// The fitted α below which the data show no overdispersion worth a parameter.
-const ALPHA_FLOOR: f64 = 1e-8;
 
 /// The positive rows of a count fit: design, counts (each ≥ 1) and the offset ln(area·L).
 #[derive(Debug, Clone)]

@@ -12,6 +12,8 @@ use crate::tolerance::{NEWTON_MAX_ITERATIONS, NEWTON_STEP_SE_TOL};
 
 /// Step-halvings tried before a Newton step is given up.
 const MAX_HALVINGS: usize = 40;
+/// The fitted α below which the data show no overdispersion worth a parameter.
+pub(super) const ALPHA_FLOOR: f64 = 1e-8;
 /// ln α is kept inside ±this during the search (α from 1e-13 to 1e13).
 const LN_ALPHA_BOUND: f64 = 30.0;
 
@@ -148,6 +150,11 @@ pub(super) fn newton(
             ));
         }
         (beta, alpha) = candidate;
+        if nb && alpha < ALPHA_FLOOR {
+            let ll = problem.log_likelihood(&beta, alpha);
+            let why = format!("the dispersion α fell below {ALPHA_FLOOR:e}");
+            return Err(not_converged(iteration, ll, alpha, nb, &why));
+        }
         if small && t == 1.0 {
             return Ok((beta, alpha, iteration));
         }
