@@ -27,3 +27,9 @@ pub const NLS_MAX_RUNS: usize = 5;
 /// Residuals whose norm is at most this fraction of the heights' norm are at rounding level:
 /// the relative offset is undefined there and the fit counts as converged.
 pub const NLS_ZERO_RESIDUAL_RTOL: f64 = 1e-12;
+/// Newton–Raphson fits of the ingrowth count part stop after a full step shorter than this many
+/// standard errors in every parameter (`docs/ingrowth.md`); quadratic convergence then leaves
+/// an error far below it.
+pub const NEWTON_STEP_SE_TOL: f64 = 1e-7;
+/// Maximum number of Newton iterations of the ingrowth count part.
+pub const NEWTON_MAX_ITERATIONS: usize = 200;

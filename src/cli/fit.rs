@@ -29,6 +29,9 @@ pub enum FitCommand {
     Height(super::fit_height::HeightArgs),
     /// Fit a volume equation (combined variable on D²H, or logarithmic) by least squares.
     Volume(super::fit_height::VolumeArgs),
+    /// Fit an ingrowth model from a plot-period table: logistic regression for any new tree
+    /// in the period and a zero-truncated negative binomial (or Poisson) count given any.
+    Ingrowth(Box<super::fit_ingrowth::IngrowthArgs>),
 }
 
 fn write_model(path: &Option<PathBuf>, model: &ModelFile) -> Result<(), Error> {
@@ -102,6 +105,7 @@ pub fn run(cmd: FitCommand) -> Result<(), Error> {
         FitCommand::Survival(a) => survival(a)?,
         FitCommand::Height(a) => super::fit_height::run_height(a)?,
         FitCommand::Volume(a) => super::fit_height::run_volume(a)?,
+        FitCommand::Ingrowth(a) => super::fit_ingrowth::run(&a)?,
         FitCommand::Growth(a) => {
             let target = match &a.response_col {
                 Some(c) => GrowthTarget::Column(c.clone()),

@@ -8,6 +8,7 @@ mod demo;
 mod fit;
 mod fit_args;
 mod fit_height;
+mod fit_ingrowth;
 mod project;
 mod rank;
 

@@ -198,16 +198,26 @@ impl ModelFile {
     /// # Errors
     /// [`ModelError::File`] with the TOML position and key.
     pub fn parse(text: &str, file: &str) -> Result<ModelFile, ModelError> {
-        // Height and volume files have keys of their own; say what they are rather than
-        // which key is unknown.
-        if let Some(kind @ ("height" | "volume")) = peek_kind(text).as_deref() {
-            return Err(ModelError::File {
-                file: file.to_string(),
-                key: "kind".into(),
-                message: format!(
-                    "this is a {kind} model; a survival or growth model is needed here"
-                ),
-            });
+        // Height, volume and ingrowth files have keys of their own; say what they are rather
+        // than which key is unknown.
+        match peek_kind(text).as_deref() {
+            Some(kind @ ("height" | "volume")) => {
+                return Err(ModelError::File {
+                    file: file.to_string(),
+                    key: "kind".into(),
+                    message: format!(
+                        "this is a {kind} model; a survival or growth model is needed here"
+                    ),
+                })
+            }
+            Some("ingrowth") => {
+                return Err(ModelError::File {
+                    file: file.to_string(),
+                    key: "kind".into(),
+                    message: "an ingrowth model, not a survival or growth model; use it as a scenario's `[models] ingrowth` (see docs/ingrowth.md)".into(),
+                })
+            }
+            _ => {}
         }
         toml::from_str(text).map_err(|e| ModelError::File {
             file: file.to_string(),

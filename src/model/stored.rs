@@ -253,7 +253,7 @@ impl Model {
     }
 }
 
-fn predictor_from(
+pub(crate) fn predictor_from(
     entries: &[CoefficientEntry],
     categorical: &BTreeMap<String, CategoricalLevels>,
     err: &dyn Fn(&str, String) -> ModelError,
@@ -330,7 +330,7 @@ fn predictor_from(
     })
 }
 
-fn covariance_from(
+pub(crate) fn covariance_from(
     c: &CovarianceEntry,
     names: &[String],
     err: &dyn Fn(&str, String) -> ModelError,
