@@ -7,6 +7,7 @@ mod compare;
 mod demo;
 mod fit;
 mod fit_args;
+mod input_args;
 mod project;
 mod rank;
 

@@ -7,10 +7,12 @@ pub mod curves;
 pub mod estimate;
 pub mod folds;
 pub mod growth;
+pub mod growth_load;
 pub mod judge;
 pub mod load;
 pub mod rank;
 pub mod rank_render;
+pub mod source;
 pub mod summary;
 pub mod survival;
 pub mod survival_summary;
@@ -39,6 +41,8 @@ pub struct DataOptions {
     pub intercept: bool,
     /// Units of diameters and per-area values.
     pub units: Units,
+    /// Status codes, the plot column, histories and screening (docs/histories.md).
+    pub input: source::InputOptions,
 }
 
 /// The remeasurement interval as given on the command line.

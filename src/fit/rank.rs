@@ -10,7 +10,7 @@ use super::estimate::{estimate, glm_data, Estimate, Estimator};
 use super::folds::{base_response, cv_log_loss, stand_folds};
 use super::load::{load_survival, LoadOptions, SurvivalData};
 use super::survival::SurvivalSpec;
-use super::{file_has_column, term_needs};
+use super::term_needs;
 use crate::model::diagnostics::{lr_test, require_unit_binary, roc_auc, LrTest};
 use crate::model::glm::FitControl;
 use crate::Error;
@@ -109,7 +109,7 @@ fn check_candidates(spec: &RankSpec) -> Result<(), Error> {
         let needs = term_needs(c, &s.data)
             .map_err(|e| Error::Usage(format!("candidate {} \"{c}\": {e}", i + 1)))?;
         for r in &needs.required {
-            if !file_has_column(&s.data.path, &r.column) {
+            if !super::source::has_column(&s.data, &r.column) {
                 return Err(Error::Usage(format!(
                     "candidate {} \"{c}\": {} needs a column `{}`, which {} does not have",
                     i + 1,
