@@ -49,6 +49,15 @@ pub(crate) enum UnitsArg {
     Imperial,
 }
 
+impl From<UnitsArg> for Units {
+    fn from(u: UnitsArg) -> Self {
+        match u {
+            UnitsArg::Metric => Units::Metric,
+            UnitsArg::Imperial => Units::Imperial,
+        }
+    }
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub(crate) enum ResponseArg {
     #[value(alias = "ln_bai")]
@@ -248,7 +257,7 @@ pub(crate) fn data_options(
     let default_status = if history { "status" } else { "alive" };
     let names = ColumnNames {
         stand: c.stand.clone(),
-        tree: c.input.history.tree.clone(),
+        tree: c.input.reading.tree.clone(),
         expansion: c.expansion.clone(),
         dbh: c.dbh.clone(),
         dbh2: dbh2.unwrap_or("dbh2").to_string(),

@@ -18,10 +18,6 @@ pub(crate) enum MissingAsArg {
 /// Reading a measurement history and mapping status codes.
 #[derive(Debug, Args)]
 pub struct HistoryArgs {
-    /// Read the data as a measurement history: one row per tree per measurement, paired into
-    /// intervals by stemcast (see docs/histories.md). The stand column is the plot.
-    #[arg(long)]
-    pub(crate) history: bool,
     /// Tree id column. In a pair file it is used to refuse a repeated (stand, tree).
     #[arg(long, value_name = "COL", default_value = "tree")]
     pub(crate) tree: String,
@@ -46,8 +42,12 @@ pub struct HistoryArgs {
 /// The plot column and data screening (fits and `rank`).
 #[derive(Debug, Args)]
 pub struct FitInputArgs {
+    /// Read the data as a measurement history: one row per tree per measurement, paired into
+    /// intervals by stemcast (see docs/histories.md). The stand column is the plot.
+    #[arg(long)]
+    pub(crate) history: bool,
     #[command(flatten)]
-    pub(crate) history: HistoryArgs,
+    pub(crate) reading: HistoryArgs,
     /// The plot column where the stand column is a stand-period id: cross-validation folds
     /// follow it. Default: the stand column.
     #[arg(long, value_name = "COL")]
@@ -59,6 +59,10 @@ pub struct FitInputArgs {
     /// default 0.25 cm or 0.1 in).
     #[arg(long, value_name = "D")]
     pub(crate) shrink_tolerance: Option<f64>,
+    /// Screening: flag increments whose robust z-score within their group exceeds this
+    /// (default 3.5).
+    #[arg(long, value_name = "Z")]
+    pub(crate) screen_z: Option<f64>,
     /// Leave the records flagged by screening out of the fit (stated in the summary and the
     /// model file).
     #[arg(long)]
@@ -77,10 +81,13 @@ pub(crate) fn status_codes(a: &HistoryArgs) -> Result<Option<StatusCodes>, Error
         .transpose()
 }
 
-/// The history options of `--history` (None without it); history-only flags without it
-/// are a usage error.
-pub(crate) fn history_options(a: &HistoryArgs) -> Result<Option<HistoryOptions>, Error> {
-    if !a.history {
+/// The history options when `history` (None otherwise); history-only flags without it are a
+/// usage error.
+pub(crate) fn history_options(
+    a: &HistoryArgs,
+    history: bool,
+) -> Result<Option<HistoryOptions>, Error> {
+    if !history {
         for (given, flag) in [
             (a.time_col.is_some(), "--time-col"),
             (a.missing_as.is_some(), "--missing-as"),
@@ -121,13 +128,19 @@ pub(crate) fn input_options(a: &FitInputArgs) -> Result<InputOptions, Error> {
             )));
         }
     }
+    if let Some(z) = a.screen_z {
+        if !(z.is_finite() && z > 0.0) {
+            return Err(Error::Usage(format!("--screen-z {z}: must be a positive number")));
+        }
+    }
     Ok(InputOptions {
-        status_codes: status_codes(&a.history)?,
+        status_codes: status_codes(&a.reading)?,
         plot: a.plot.clone(),
-        history: history_options(&a.history)?,
+        history: history_options(&a.reading, a.history)?,
         screen: ScreenOptions {
             by: a.screen_by.clone(),
             shrink_tolerance: a.shrink_tolerance,
+            z_limit: a.screen_z,
             drop_flagged: a.drop_flagged,
         },
     })

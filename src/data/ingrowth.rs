@@ -63,6 +63,36 @@ pub struct Ingrowth {
     pub tree_expansion: Vec<f64>,
 }
 
+impl Ingrowth {
+    /// The periods as CSV: `plot,t1,t2,years,ingrowth,ingrowth_stems,area,ba,stems,qmd`
+    /// (area empty when the plot has no single expansion factor; per-area values in the
+    /// history's units).
+    pub fn periods_csv(&self) -> String {
+        let mut out = String::from("plot,t1,t2,years,ingrowth,ingrowth_stems,area,ba,stems,qmd\n");
+        let num = |v: f64| if v.is_finite() { v.to_string() } else { String::new() };
+        for p in &self.periods {
+            let plot = if p.plot.contains([',', '"', '\n']) {
+                format!("\"{}\"", p.plot.replace('"', "\"\""))
+            } else {
+                p.plot.clone()
+            };
+            out.push_str(&format!(
+                "{plot},{},{},{},{},{},{},{},{},{}\n",
+                p.t1,
+                p.t2,
+                p.years,
+                p.count,
+                num(p.ingrowth_stems),
+                p.area.map(num).unwrap_or_default(),
+                num(p.ba),
+                num(p.live_stems),
+                num(p.qmd)
+            ));
+        }
+        out
+    }
+}
+
 /// Count ingrowth per plot-period and gather the ingrowth trees.
 pub(super) fn build_ingrowth(
     h: &History,

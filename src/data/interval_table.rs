@@ -9,7 +9,8 @@ use super::columns::ColumnBuilder;
 use super::frame::{Frame, FrameColumn};
 use super::history::{read_history, History, HistorySpec};
 use super::pairing::Pairing;
-use super::remeasure::{load_with, ColumnNames, RemeasureSpec, Remeasurement};
+use super::covariates::DerivedCovariate;
+use super::remeasure::{load_with, ColumnNames, Purpose, RemeasureSpec, Remeasurement, Required};
 use super::status::Status;
 use super::status_codes::StatusCodes;
 use super::table::{Table, TableOptions};
@@ -214,4 +215,40 @@ fn interval_table(h: &History, p: &Pairing, header: Vec<String>, options: &Table
         header,
         sha256: h.sha256.clone(),
     }
+}
+
+/// The derived interval table of a history: every interval record with every history column
+/// (at t1), the added columns, and the derived covariates per plot occasion that the history
+/// can give (all five when it has an expansion column, except those it has a column of the
+/// same name for). Returns the records and the column order to write them in.
+///
+/// # Errors
+/// As [`load_paired`].
+pub fn derive_intervals(
+    h: &History,
+    pairing: &Pairing,
+) -> Result<(Remeasurement, Vec<String>), DataError> {
+    let mut columns = interval_header(&h.header, &h.spec);
+    let derived: Vec<DerivedCovariate> = if h.header.contains(&h.spec.names.expansion) {
+        DerivedCovariate::ALL
+            .into_iter()
+            .filter(|d| !columns.iter().any(|c| c == d.name()))
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let spec = RemeasureSpec {
+        purpose: Purpose::Counts,
+        required: columns
+            .iter()
+            .map(|c| Required::new(c, "the interval table"))
+            .collect(),
+        derived: derived.clone(),
+        categorical: h.spec.categorical.clone(),
+        units: h.spec.units,
+        ..RemeasureSpec::default()
+    };
+    let records = load_paired(h, pairing, &spec)?;
+    columns.extend(derived.iter().map(|d| d.name().to_string()));
+    Ok((records, columns))
 }

@@ -60,6 +60,8 @@ pub struct ScreenSpec {
     /// How much a diameter may shrink before it is flagged (diameter units); `None`: 0.25 cm
     /// or 0.1 in.
     pub shrink_tolerance: Option<f64>,
+    /// |robust z| above which an increment is flagged; `None`: [`ROBUST_Z_LIMIT`].
+    pub z_limit: Option<f64>,
     /// Units of the diameters.
     pub units: Units,
 }
@@ -183,6 +185,7 @@ pub fn screen(
         None => String::new(),
     };
     let tol = spec.tolerance();
+    let z_limit = spec.z_limit.unwrap_or(ROBUST_Z_LIMIT);
     let mut flags = Vec::new();
     let flag = |i: usize, reason, value, detail: String| Flag {
         line: frame.lines[i],
@@ -198,7 +201,7 @@ pub fn screen(
         let g = cell(frame, by, i);
         if let Some((m, mad)) = stats.of(&g).filter(|s| s.1 > 0.0) {
             let z = MAD_SCALE * (a - m) / mad;
-            if z.abs() > ROBUST_Z_LIMIT {
+            if z.abs() > z_limit {
                 let detail = format!(
                     "annual diameter increment {a:.4} ({d1} to {d2}): robust z {z:.2}{} (median {m:.4}, MAD {mad:.4})",
                     group_label(&g)
@@ -212,7 +215,7 @@ pub fn screen(
         }
     }
     if let Some((h, p)) = history {
-        history_flags(frame, h, p, &stats, by, &mut flags);
+        history_flags(frame, h, p, (&stats, z_limit), by, &mut flags);
     }
     flags.sort_by(|a, b| (a.line, a.reason).cmp(&(b.line, b.reason)));
     flags
@@ -223,7 +226,7 @@ fn history_flags(
     frame: &Frame,
     h: &History,
     p: &Pairing,
-    stats: &Stats,
+    (stats, z_limit): (&Stats, f64),
     by: Option<&str>,
     flags: &mut Vec<Flag>,
 ) {
@@ -267,7 +270,7 @@ fn history_flags(
             continue;
         };
         let z = MAD_SCALE * (implied - m) / mad;
-        if z > ROBUST_Z_LIMIT {
+        if z > z_limit {
             flags.push(Flag {
                 line: h.frame.lines[t.row],
                 other_line: None,

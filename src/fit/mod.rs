@@ -2,6 +2,7 @@
 //! columns the terms need, load the records, build the design matrix, fit, and assemble the
 //! model file. Rendering the results as text or JSON lives in [`summary`].
 
+pub mod candidates;
 pub mod chart;
 pub mod curves;
 pub mod estimate;

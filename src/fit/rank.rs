@@ -105,6 +105,7 @@ fn check_candidates(spec: &RankSpec) -> Result<(), Error> {
         ));
     }
     let s = &spec.survival;
+    super::candidates::check_references(&s.data, &spec.candidates)?;
     for (i, c) in spec.candidates.iter().enumerate() {
         let needs = term_needs(c, &s.data)
             .map_err(|e| Error::Usage(format!("candidate {} \"{c}\": {e}", i + 1)))?;
@@ -161,7 +162,13 @@ fn rank_loaded(
     let fits: Vec<Estimate> = spec
         .candidates
         .par_iter()
-        .map(|c| estimate(s, data, c, Estimator::MaximumLikelihood, &spec.control))
+        .map(|c| {
+            let sc = SurvivalSpec {
+                data: super::candidates::for_candidate(&s.data, c),
+                ..s.clone()
+            };
+            estimate(&sc, data, c, Estimator::MaximumLikelihood, &spec.control)
+        })
         .collect::<Result<_, _>>()?;
     let first = &fits[0];
     let response = base_response(&glm_data(

@@ -53,6 +53,8 @@ pub struct ScreenOptions {
     pub by: Option<String>,
     /// Diameter shrinkage tolerated (`--shrink-tolerance`), in diameter units.
     pub shrink_tolerance: Option<f64>,
+    /// |robust z| above which an increment is flagged (`--screen-z`; default 3.5).
+    pub z_limit: Option<f64>,
     /// Leave flagged records out of the fit (`--drop-flagged`).
     pub drop_flagged: bool,
 }
@@ -171,6 +173,7 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
         extra.push((by.clone(), "--screen-by"));
     }
     extra.push((plot_column(data).to_string(), "the plot of each record"));
+    extra.push((names.tree.clone(), "the tree of each record"));
     for (column, why) in extra {
         let present = has_column(data, &column);
         if why == "--screen-by" || present {
@@ -214,6 +217,7 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
         &ScreenSpec {
             by: screen_opts.by.clone(),
             shrink_tolerance: screen_opts.shrink_tolerance,
+            z_limit: screen_opts.z_limit,
             units: data.units,
         },
     );
