@@ -12,6 +12,8 @@ pub mod growth_load;
 pub mod judge;
 pub mod load;
 pub mod rank;
+pub mod rank_growth;
+pub mod rank_growth_render;
 pub mod rank_render;
 pub mod source;
 pub mod summary;

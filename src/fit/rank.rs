@@ -83,6 +83,8 @@ pub struct Ranking {
     pub nested: Vec<NestedTest>,
     /// Things the user should know about the data.
     pub warnings: Vec<String>,
+    /// What data screening found.
+    pub screening: super::source::Screening,
 }
 
 /// Akaike weights of a set of AIC values.
@@ -143,7 +145,7 @@ pub fn rank(spec: &RankSpec) -> Result<Ranking, Error> {
             predictor_sets: spec.candidates.clone(),
             cluster: None,
             stands: true,
-            stands_why: "cross-validation folds grouped by stand (--stand COL)".into(),
+            stands_why: "cross-validation folds grouped by plot (--plot or --stand COL)".into(),
         },
     )?;
     let stands = data.stands.as_deref().unwrap_or(&[]);
@@ -252,6 +254,7 @@ fn rank_loaded(
         rows,
         nested,
         warnings: data.warnings.clone(),
+        screening: data.screening.clone(),
     })
 }
 
