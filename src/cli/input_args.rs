@@ -130,7 +130,9 @@ pub(crate) fn input_options(a: &FitInputArgs) -> Result<InputOptions, Error> {
     }
     if let Some(z) = a.screen_z {
         if !(z.is_finite() && z > 0.0) {
-            return Err(Error::Usage(format!("--screen-z {z}: must be a positive number")));
+            return Err(Error::Usage(format!(
+                "--screen-z {z}: must be a positive number"
+            )));
         }
     }
     Ok(InputOptions {

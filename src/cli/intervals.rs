@@ -45,7 +45,8 @@ pub struct Args {
     reading: HistoryArgs,
 }
 
-const INTERVALS_HELP: &str = "Columns of the interval table: the plot and tree, occasion (plot@t1, the stand of the
+const INTERVALS_HELP: &str =
+    "Columns of the interval table: the plot and tree, occasion (plot@t1, the stand of the
 derived covariates), t1, t2, years (= t2 - t1), the diameter at t1 (under the history's name),
 dbh2 (at t2, empty unless alive), fate (alive, dead, cut or missing), every other history
 column at t1, and the derived covariates ba, bal, qmd, rel_dbh, stems per plot and

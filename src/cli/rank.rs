@@ -2,8 +2,8 @@
 //! `--growth`, of a growth model) on the same records.
 
 use clap::{Args, ValueEnum};
-use stemcast::fit::rank::{rank, RankSpec};
 use stemcast::fit::growth::{GrowthSpec, GrowthTarget};
+use stemcast::fit::rank::{rank, RankSpec};
 use stemcast::fit::rank_growth::{rank_growth, GrowthRankSpec};
 use stemcast::fit::rank_growth_render::{rank_growth_csv, rank_growth_json, rank_growth_text};
 use stemcast::fit::rank_render::{rank_csv, rank_json, rank_text};

@@ -93,7 +93,10 @@ mod tests {
         // A run of three reports its first two rows.
         assert_eq!(first_repeat(&[9, 9, 9], &[true; 3]), Some((0, 1)));
         // Rows left out do not count.
-        assert_eq!(first_repeat(&keys, &[true, true, true, false, true]), Some((1, 4)));
+        assert_eq!(
+            first_repeat(&keys, &[true, true, true, false, true]),
+            Some((1, 4))
+        );
         assert_eq!(first_repeat(&[1, 2, 3], &[true; 3]), None);
     }
 }

@@ -119,11 +119,7 @@ pub fn read_history(path: &Path, spec: &HistorySpec) -> Result<History, DataErro
 /// assert_eq!(h.status, [Status::Alive, Status::Dead]);
 /// assert_eq!(h.time[1], 2006.0 + 182.0 / 365.0);
 /// ```
-pub fn parse_history(
-    bytes: &[u8],
-    source: &str,
-    spec: &HistorySpec,
-) -> Result<History, DataError> {
+pub fn parse_history(bytes: &[u8], source: &str, spec: &HistorySpec) -> Result<History, DataError> {
     let n = &spec.names;
     let mut categorical = spec.categorical.clone();
     categorical.extend([n.stand.clone(), n.tree.clone(), n.status.clone()]);
@@ -139,7 +135,10 @@ pub fn parse_history(
     for (column, why) in [
         (&n.stand, "the plot of each measurement (--stand)"),
         (&n.tree, "the tree of each measurement (--tree)"),
-        (&spec.time, "the measurement time, a year or YYYY-MM-DD date (--time-col)"),
+        (
+            &spec.time,
+            "the measurement time, a year or YYYY-MM-DD date (--time-col)",
+        ),
         (&n.status, "the status at each measurement (--status)"),
         (&n.dbh, "the diameter at each measurement (--dbh)"),
     ] {
@@ -241,9 +240,9 @@ fn times(frame: &Frame, column: &str) -> Result<Vec<f64>, DataError> {
     };
     (0..frame.len())
         .map(|i| {
-            let text = col.text(i).ok_or_else(|| {
-                cell(frame, i, column, "the measurement time is empty".into())
-            })?;
+            let text = col
+                .text(i)
+                .ok_or_else(|| cell(frame, i, column, "the measurement time is empty".into()))?;
             let result = match col {
                 FrameColumn::Text { codes, .. } => parsed[codes[i] as usize]
                     .get_or_insert_with(|| parse_time(&text))
@@ -261,7 +260,12 @@ fn statuses(
     column: &str,
     codes: Option<&StatusCodes>,
 ) -> Result<Vec<Status>, DataError> {
-    let Some(FrameColumn::Text { levels, codes: cells, .. }) = frame.column(column) else {
+    let Some(FrameColumn::Text {
+        levels,
+        codes: cells,
+        ..
+    }) = frame.column(column)
+    else {
         return Err(DataError::file(
             &frame.source,
             format!("column \"{column}\" was not read as text"),
@@ -306,7 +310,12 @@ fn positive_on(
                 return Ok(f64::NAN);
             }
             match col.number(i) {
-                Err(text) => Err(cell(frame, i, column, format!("\"{text}\" is not a number"))),
+                Err(text) => Err(cell(
+                    frame,
+                    i,
+                    column,
+                    format!("\"{text}\" is not a number"),
+                )),
                 Ok(v) if v.is_nan() => Err(cell(
                     frame,
                     i,

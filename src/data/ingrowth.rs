@@ -69,7 +69,13 @@ impl Ingrowth {
     /// history's units).
     pub fn periods_csv(&self) -> String {
         let mut out = String::from("plot,t1,t2,years,ingrowth,ingrowth_stems,area,ba,stems,qmd\n");
-        let num = |v: f64| if v.is_finite() { v.to_string() } else { String::new() };
+        let num = |v: f64| {
+            if v.is_finite() {
+                v.to_string()
+            } else {
+                String::new()
+            }
+        };
         for p in &self.periods {
             let plot = if p.plot.contains([',', '"', '\n']) {
                 format!("\"{}\"", p.plot.replace('"', "\"\""))
@@ -117,7 +123,8 @@ pub(super) fn build_ingrowth(
         match plot_expansion[p] {
             None => plot_expansion[p] = Some(h.expansion[i]),
             Some(e0) => {
-                if !((h.expansion[i] - e0).abs() <= SAME_EXPANSION_RTOL * e0) {
+                let same = (h.expansion[i] - e0).abs() <= SAME_EXPANSION_RTOL * e0;
+                if !same {
                     uniform[p] = false;
                 }
             }

@@ -6,10 +6,10 @@
 use std::path::Path;
 
 use super::columns::ColumnBuilder;
+use super::covariates::DerivedCovariate;
 use super::frame::{Frame, FrameColumn};
 use super::history::{read_history, History, HistorySpec};
 use super::pairing::Pairing;
-use super::covariates::DerivedCovariate;
 use super::remeasure::{load_with, ColumnNames, Purpose, RemeasureSpec, Remeasurement, Required};
 use super::status::Status;
 use super::status_codes::StatusCodes;
@@ -158,8 +158,7 @@ fn fate_codes() -> StatusCodes {
         ("cut", Status::Censored),
         ("missing", Status::Censored),
     ];
-    StatusCodes::new(entries.iter().map(|(c, s)| (c.to_string(), *s)).collect())
-        .unwrap_or_default()
+    StatusCodes::new(entries.iter().map(|(c, s)| (c.to_string(), *s)).collect()).unwrap_or_default()
 }
 
 /// The interval records as a table: the history's rows at t1 (every column read, kept in
@@ -171,7 +170,12 @@ fn interval_table(h: &History, p: &Pairing, header: Vec<String>, options: &Table
         keep[a] = true;
     }
     let lines: Vec<u64> = iv.anchor.iter().map(|&a| h.frame.lines[a]).collect();
-    let wanted = |c: &str| options.columns.as_ref().is_none_or(|l| l.iter().any(|x| x == c));
+    let wanted = |c: &str| {
+        options
+            .columns
+            .as_ref()
+            .is_none_or(|l| l.iter().any(|x| x == c))
+    };
     let text = |cells: &mut dyn Iterator<Item = String>| {
         let mut b = ColumnBuilder::new(true, iv.len());
         for (cell, &line) in cells.zip(&lines) {
@@ -185,9 +189,13 @@ fn interval_table(h: &History, p: &Pairing, header: Vec<String>, options: &Table
             continue;
         }
         let column = match name.as_str() {
-            OCCASION_COLUMN => text(&mut iv.anchor.iter().zip(&iv.t1).map(|(&a, t)| {
-                format!("{}@{t}", h.plots[h.plot[a] as usize])
-            })),
+            OCCASION_COLUMN => text(
+                &mut iv
+                    .anchor
+                    .iter()
+                    .zip(&iv.t1)
+                    .map(|(&a, t)| format!("{}@{t}", h.plots[h.plot[a] as usize])),
+            ),
             T1_COLUMN => FrameColumn::Numeric(iv.t1.clone()),
             T2_COLUMN => FrameColumn::Numeric(iv.t2.clone()),
             YEARS_COLUMN => {

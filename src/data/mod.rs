@@ -29,12 +29,14 @@ pub use history::{parse_history, read_history, History, HistorySpec, MissingAs};
 pub use ingrowth::{Ingrowth, IngrowthPeriod};
 pub use interval_csv::frame_csv;
 pub use interval_table::{
-    derive_intervals, interval_header, interval_names, load_history, load_paired, HistoryLoad, ADDED_COLUMNS,
-    DBH2_COLUMN, FATE_COLUMN, OCCASION_COLUMN, T1_COLUMN, T2_COLUMN, YEARS_COLUMN,
+    derive_intervals, interval_header, interval_names, load_history, load_paired, HistoryLoad,
+    ADDED_COLUMNS, DBH2_COLUMN, FATE_COLUMN, OCCASION_COLUMN, T1_COLUMN, T2_COLUMN, YEARS_COLUMN,
 };
 pub use pair_file::{load_remeasurement, load_remeasurement_bytes};
 pub use pairing::{Fate, Intervals, NewTree, Occasion, Pairing, PairingCounts, Reappearance};
-pub use remeasure::{ColumnNames, Purpose, RemeasureCounts, RemeasureSpec, Remeasurement, Required};
+pub use remeasure::{
+    ColumnNames, Purpose, RemeasureCounts, RemeasureSpec, Remeasurement, Required,
+};
 pub use screen::{
     flags_csv, median_mad, screen, Flag, FlagReason, ScreenSpec, MIN_GROUP, ROBUST_Z_LIMIT,
 };

@@ -249,7 +249,14 @@ impl History {
             intervals.fate.push(fate);
         }
         counts.intervals = intervals.len();
-        let ingrowth = build_ingrowth(self, &occasions, &occ_start, &occasion_of_row, &new_trees, threshold);
+        let ingrowth = build_ingrowth(
+            self,
+            &occasions,
+            &occ_start,
+            &occasion_of_row,
+            &new_trees,
+            threshold,
+        );
         Ok(Pairing {
             occasions,
             occasion_of_row,
@@ -380,7 +387,10 @@ impl Walk<'_> {
                 }
             }
             if alive && o + 1 < self.occ_start[p + 1] {
-                let next = rows.get(j + 1).copied().filter(|&q| self.occ[q] as usize == o + 1);
+                let next = rows
+                    .get(j + 1)
+                    .copied()
+                    .filter(|&q| self.occ[q] as usize == o + 1);
                 let fate = match next.map(|q| h.status[q]) {
                     Some(Status::Alive) => Fate::Alive,
                     Some(Status::Dead) => Fate::Dead,

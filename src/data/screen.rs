@@ -162,7 +162,11 @@ pub fn screen(
     for i in 0..n {
         let (d1, d2) = (number(frame, &names.dbh, i), number(frame, &names.dbh2, i));
         let years = number(frame, &names.years, i);
-        let years = if years.is_finite() && years > 0.0 { years } else { 1.0 };
+        let years = if years.is_finite() && years > 0.0 {
+            years
+        } else {
+            1.0
+        };
         if d1.is_finite() && d2.is_finite() {
             increments.push((i, d1, d2, (d2 - d1) / years));
         }
@@ -210,14 +214,15 @@ pub fn screen(
             }
         }
         if d2 < d1 - tol {
-            let detail = format!("diameter shrinks from {d1} to {d2}, more than the tolerance {tol}");
+            let detail =
+                format!("diameter shrinks from {d1} to {d2}, more than the tolerance {tol}");
             flags.push(flag(i, FlagReason::Shrinks, d1 - d2, detail));
         }
     }
     if let Some((h, p)) = history {
         history_flags(frame, h, p, (&stats, z_limit), by, &mut flags);
     }
-    flags.sort_by(|a, b| (a.line, a.reason).cmp(&(b.line, b.reason)));
+    flags.sort_by_key(|f| (f.line, f.reason));
     flags
 }
 
@@ -230,12 +235,18 @@ fn history_flags(
     by: Option<&str>,
     flags: &mut Vec<Flag>,
 ) {
-    let record_of_line: HashMap<u64, usize> =
-        frame.lines.iter().enumerate().map(|(i, &l)| (l, i)).collect();
+    let record_of_line: HashMap<u64, usize> = frame
+        .lines
+        .iter()
+        .enumerate()
+        .map(|(i, &l)| (l, i))
+        .collect();
     let names = &h.spec.names;
     let hc = |column: &str, row: usize| cell(&h.frame, Some(column), row);
     for r in &p.reappearances {
-        let line = r.death.map_or(h.frame.lines[r.anchor], |d| h.frame.lines[d]);
+        let line = r
+            .death
+            .map_or(h.frame.lines[r.anchor], |d| h.frame.lines[d]);
         let detail = match r.death {
             Some(d) => format!(
                 "recorded {} at {} (line {}) and alive again at {} (line {})",

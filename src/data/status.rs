@@ -116,7 +116,12 @@ pub(super) fn status_per_row(
     codes: Option<&StatusCodes>,
     rows: &[bool],
 ) -> Result<Vec<Status>, DataError> {
-    let Some(FrameColumn::Text { levels, codes: cells, .. }) = frame.columns.get(column) else {
+    let Some(FrameColumn::Text {
+        levels,
+        codes: cells,
+        ..
+    }) = frame.columns.get(column)
+    else {
         return Ok(vec![Status::Alive; frame.len()]);
     };
     let parsed: Vec<_> = levels
@@ -163,7 +168,9 @@ pub(super) fn parse_with(
             )
         }),
         None => Status::parse(value, one_means).map_err(|e| {
-            format!("{e}; other codes can be mapped with --status-codes, e.g. \"1=alive,2=dead,3=cut\"")
+            format!(
+                "{e}; other codes can be mapped with --status-codes, e.g. \"1=alive,2=dead,3=cut\""
+            )
         }),
     }
 }

@@ -27,7 +27,9 @@ impl StatusCodes {
     /// [`MAX_STATUS_CODES`] codes.
     pub fn new(entries: Vec<(String, Status)>) -> Result<Self, String> {
         if entries.is_empty() {
-            return Err("--status-codes lists no codes; write e.g. \"1=alive,2=dead,3=cut\"".into());
+            return Err(
+                "--status-codes lists no codes; write e.g. \"1=alive,2=dead,3=cut\"".into(),
+            );
         }
         if entries.len() > MAX_STATUS_CODES {
             return Err(format!(

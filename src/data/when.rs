@@ -79,7 +79,14 @@ mod tests {
         assert_eq!(decimal_year("1999-12-31"), Some(1999.0 + 364.0 / 365.0));
         // 1900 is not a leap year (divisible by 100, not by 400).
         assert_eq!(decimal_year("1900-02-29"), None);
-        for bad in ["1998-7-02", "98-07-02", "1998/07/02", "1998-13-01", "1998-00-10", "x"] {
+        for bad in [
+            "1998-7-02",
+            "98-07-02",
+            "1998/07/02",
+            "1998-13-01",
+            "1998-00-10",
+            "x",
+        ] {
             assert_eq!(decimal_year(bad), None, "{bad}");
         }
     }

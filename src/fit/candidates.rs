@@ -23,7 +23,8 @@ fn variables(predictors: &str) -> Vec<String> {
 pub fn for_candidate(data: &DataOptions, predictors: &str) -> DataOptions {
     let used = variables(predictors);
     let mut out = data.clone();
-    out.references.retain(|var, _| used.iter().any(|u| u == var));
+    out.references
+        .retain(|var, _| used.iter().any(|u| u == var));
     out
 }
 

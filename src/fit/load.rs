@@ -10,8 +10,8 @@ use ndarray::Array1;
 use super::survival::{SurvivalResponse, SurvivalSpec};
 use super::{common_interval, term_needs, Years};
 use crate::data::{
-    DataError, DerivedCovariate, FrameColumn, Outcome, Purpose, RemeasureSpec,
-    Remeasurement, Required,
+    DataError, DerivedCovariate, FrameColumn, Outcome, Purpose, RemeasureSpec, Remeasurement,
+    Required,
 };
 use crate::model::file::IntervalKind;
 use crate::model::link::Link;

@@ -107,7 +107,10 @@ pub struct GrowthRanking {
 /// F = ((RSS_r − RSS_f) / (p_f − p_r)) / (RSS_f / (n − p_f)), referred to F(p_f − p_r, n − p_f)
 /// (R `anova(reduced, full)`).
 pub fn nested_f(reduced: &OlsFit, full: &OlsFit) -> Option<(f64, usize, usize, f64)> {
-    let df1 = full.coefficients.len().checked_sub(reduced.coefficients.len())?;
+    let df1 = full
+        .coefficients
+        .len()
+        .checked_sub(reduced.coefficients.len())?;
     let df2 = full.df_residual;
     if df1 == 0 || df2 == 0 {
         return None;

@@ -34,7 +34,17 @@ pub fn rank_growth_text(r: &GrowthRanking) -> String {
         .max(10);
     out.push_str(&format!(
         "  {:>4}  {:<width$}  {:>3}  {:>14}  {:>14}  {:>9}  {:>7}  {:>14}  {:>7}  {:>10}  {:>10}\n",
-        "rank", "predictors", "k", "log-lik", "AIC", "ΔAIC", "weight", "BIC", "adj R²", "resid SD", "CV RMSE"
+        "rank",
+        "predictors",
+        "k",
+        "log-lik",
+        "AIC",
+        "ΔAIC",
+        "weight",
+        "BIC",
+        "adj R²",
+        "resid SD",
+        "CV RMSE"
     ));
     for (i, c) in r.rows.iter().enumerate() {
         out.push_str(&format!(

@@ -112,7 +112,10 @@ impl Screening {
             .map(|(r, c)| format!("{c} {}", r.as_str()))
             .collect();
         let fate = if self.drop_flagged {
-            format!("{} flagged records were left out (--drop-flagged)", self.left_out)
+            format!(
+                "{} flagged records were left out (--drop-flagged)",
+                self.left_out
+            )
         } else {
             "kept in the fit (leave them out with --drop-flagged)".to_string()
         };
@@ -176,10 +179,8 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
     extra.push((names.tree.clone(), "the tree of each record"));
     for (column, why) in extra {
         let present = has_column(data, &column);
-        if why == "--screen-by" || present {
-            if !spec.required.iter().any(|r| r.column == column) {
-                spec.required.push(Required::new(column, why));
-            }
+        if (why == "--screen-by" || present) && !spec.required.iter().any(|r| r.column == column) {
+            spec.required.push(Required::new(column, why));
         }
     }
     spec.status_codes = data.input.status_codes.clone();
@@ -254,8 +255,5 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
     if let Some(s) = screening.sentence() {
         records.warnings.push(s);
     }
-    Ok(Loaded {
-        records,
-        screening,
-    })
+    Ok(Loaded { records, screening })
 }

@@ -75,7 +75,10 @@ pub fn build_design(
                 levels.join(", ")
             )))
             }
-            _ if !terms.iter().any(|t| t.factors.iter().any(|f| f.var() == var)) => {
+            _ if !terms
+                .iter()
+                .any(|t| t.factors.iter().any(|f| f.var() == var)) =>
+            {
                 return Err(ModelError::Invalid(format!(
                     "--reference {var}={level}: no predictor term uses `{var}`"
                 )))

@@ -19,16 +19,39 @@ fn a_pair_file_holding_two_periods_under_one_stand_is_refused_with_both_lines() 
     let err = fails(
         &sb,
         &[
-            "fit", "survival", &p, "--stand", "PLOT", "--tree", "TREE_NO", "--dbh", "DBH1_IN",
-            "--status", "STATUS2", "--status-codes", "1=alive,2=dead,3=cut", "--expansion",
-            "TPA", "--years-col", "MEAS_INT", "--interval", "annualized", "-p", "dbh, bal",
+            "fit",
+            "survival",
+            &p,
+            "--stand",
+            "PLOT",
+            "--tree",
+            "TREE_NO",
+            "--dbh",
+            "DBH1_IN",
+            "--status",
+            "STATUS2",
+            "--status-codes",
+            "1=alive,2=dead,3=cut",
+            "--expansion",
+            "TPA",
+            "--years-col",
+            "MEAS_INT",
+            "--interval",
+            "annualized",
+            "-p",
+            "dbh, bal",
         ],
     );
     assert!(
-        err.contains("pairs.csv: line 39: stand \"101\", tree \"1\" appears again (first on line 2)"),
+        err.contains(
+            "pairs.csv: line 39: stand \"101\", tree \"1\" appears again (first on line 2)"
+        ),
         "{err}"
     );
-    assert!(err.contains("--history") && err.contains("stand-period id"), "{err}");
+    assert!(
+        err.contains("--history") && err.contains("stand-period id"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -55,8 +78,22 @@ fn unmapped_status_codes_name_line_and_value() {
         "PLOT,TREE,YR,ST,D,E\n1,1,2000,1,10,50\n1,2,2000,1,12,50\n1,1,2005,9,,50\n1,2,2005,1,13,50\n",
     );
     let base = [
-        "intervals", h.to_str().unwrap(), "--out", "o.csv", "--stand", "PLOT", "--tree",
-        "TREE", "--time-col", "YR", "--status", "ST", "--dbh", "D", "--expansion", "E",
+        "intervals",
+        h.to_str().unwrap(),
+        "--out",
+        "o.csv",
+        "--stand",
+        "PLOT",
+        "--tree",
+        "TREE",
+        "--time-col",
+        "YR",
+        "--status",
+        "ST",
+        "--dbh",
+        "D",
+        "--expansion",
+        "E",
     ];
     let mut a = base.to_vec();
     a.extend(["--status-codes", "1=alive,2=dead,3=cut"]);
@@ -73,7 +110,10 @@ fn unmapped_status_codes_name_line_and_value() {
     let mut b = base.to_vec();
     b[1] = h2.to_str().unwrap();
     let err = fails(&sb, &b);
-    assert!(err.contains("line 3, column \"ST\": \"2\" is not a tree status"), "{err}");
+    assert!(
+        err.contains("line 3, column \"ST\": \"2\" is not a tree status"),
+        "{err}"
+    );
     assert!(err.contains("--status-codes"), "{err}");
     // A malformed map is a usage error.
     let mut c = base.to_vec();
@@ -91,7 +131,12 @@ fn status_codes_map_pair_files_too() {
     let err = fails(
         &sb,
         &[
-            "fit", "survival", p.to_str().unwrap(), "-p", "dbh", "--status-codes",
+            "fit",
+            "survival",
+            p.to_str().unwrap(),
+            "-p",
+            "dbh",
+            "--status-codes",
             "L=alive,D=dead,H=cut",
         ],
     );
@@ -114,5 +159,8 @@ fn history_flags_need_history_and_history_computes_intervals() {
         &sb,
         &["fit", "survival", &p, "--time-col", "YEAR", "-p", "dbh"],
     );
-    assert!(err.contains("--time-col applies to a measurement history"), "{err}");
+    assert!(
+        err.contains("--time-col applies to a measurement history"),
+        "{err}"
+    );
 }

@@ -68,13 +68,24 @@ fn survival_from_the_history_equals_survival_from_the_scripts_pairs() {
     for model in [
         vec!["--interval", "annualized", "-p", "dbh, bal, SPP, SI"],
         vec![
-            "--interval", "exposure", "--link", "cloglog", "--outcome", "dead", "-p",
-            "ln(dbh), ba, rel_dbh, SPP", "--cluster", "PLOT",
+            "--interval",
+            "exposure",
+            "--link",
+            "cloglog",
+            "--outcome",
+            "dead",
+            "-p",
+            "ln(dbh), ba, rel_dbh, SPP",
+            "--cluster",
+            "PLOT",
         ],
     ] {
         let mut fixed = vec!["--format", "json"];
         fixed.extend(&model);
-        let a = run_json(&sb, &args(&with(&["fit", "survival", &h], &HISTORY, &fixed)));
+        let a = run_json(
+            &sb,
+            &args(&with(&["fit", "survival", &h], &HISTORY, &fixed)),
+        );
         let b = run_json(&sb, &args(&with(&["fit", "survival", &p], &PAIRS, &fixed)));
         same_fit(&a, &b, 1e-10);
         // simulate.py: 740 intervals of which 17 end in a cut (censored).
@@ -97,7 +108,12 @@ fn growth_from_the_history_equals_growth_from_the_scripts_pairs() {
     let b = run_json(&sb, &args(&with(&["fit", "growth", &p], &pairs, &model)));
     same_fit(&a, &b, 1e-10);
     assert_eq!(a["records"], 581);
-    assert!(rel(a["residual_sd"].as_f64().unwrap(), b["residual_sd"].as_f64().unwrap()) < 1e-10);
+    assert!(
+        rel(
+            a["residual_sd"].as_f64().unwrap(),
+            b["residual_sd"].as_f64().unwrap()
+        ) < 1e-10
+    );
 }
 
 #[test]
@@ -108,7 +124,14 @@ fn rank_folds_follow_the_plot_in_histories_and_with_plot() {
     let sb = Sandbox::new();
     let (h, p) = (fixture("history.csv"), fixture("pairs.csv"));
     let tail = [
-        "--interval", "annualized", "--folds", "14", "--format", "json", "--candidates", "dbh",
+        "--interval",
+        "annualized",
+        "--folds",
+        "14",
+        "--format",
+        "json",
+        "--candidates",
+        "dbh",
         "dbh, bal, SPP",
     ];
     let a = run_json(&sb, &args(&with(&["rank", &h], &HISTORY, &tail)));
@@ -140,8 +163,15 @@ fn growth_ranking_from_the_history_equals_numpy_and_scipy() {
     )
     .unwrap();
     let tail = [
-        "--growth", "--folds", "14", "--format", "json", "--candidates", "ln(dbh), dbh",
-        "ln(dbh), dbh, bal", "ln(dbh), dbh, bal, SPP",
+        "--growth",
+        "--folds",
+        "14",
+        "--format",
+        "json",
+        "--candidates",
+        "ln(dbh), dbh",
+        "ln(dbh), dbh, bal",
+        "ln(dbh), dbh, bal, SPP",
     ];
     let got = run_json(&sb, &args(&with(&["rank", &h], &HISTORY, &tail)));
     assert_eq!(got["records"], reference["records"]);
@@ -149,7 +179,14 @@ fn growth_ranking_from_the_history_equals_numpy_and_scipy() {
     for c in got["candidates"].as_array().unwrap() {
         let want = &reference["candidates"][c["predictors"].as_str().unwrap()];
         assert_eq!(c["k"], want["k"]);
-        for key in ["log_likelihood", "aic", "bic", "adj_r_squared", "residual_sd", "cv_rmse"] {
+        for key in [
+            "log_likelihood",
+            "aic",
+            "bic",
+            "adj_r_squared",
+            "residual_sd",
+            "cv_rmse",
+        ] {
             let (u, v) = (c[key].as_f64().unwrap(), want[key].as_f64().unwrap());
             assert!(rel(u, v) < 1e-9, "{} {key}: {u} vs {v}", c["predictors"]);
         }
@@ -164,7 +201,10 @@ fn growth_ranking_from_the_history_equals_numpy_and_scipy() {
         assert_eq!((&t["df1"], &t["df2"]), (&want["df1"], &want["df2"]));
         assert!(rel(t["f"].as_f64().unwrap(), want["f"].as_f64().unwrap()) < 1e-9);
         // p-values: the reference README's rule, rtol 1e-4 / atol 1e-12.
-        let (u, v) = (t["p_value"].as_f64().unwrap(), want["p_value"].as_f64().unwrap());
+        let (u, v) = (
+            t["p_value"].as_f64().unwrap(),
+            want["p_value"].as_f64().unwrap(),
+        );
         assert!((u - v).abs() <= 1e-12 + 1e-4 * v.abs(), "p {u} vs {v}");
     }
 }
@@ -177,8 +217,17 @@ fn a_reference_level_concerns_only_the_candidates_that_use_its_variable() {
     let sb = Sandbox::new();
     let h = fixture("history.csv");
     let tail = [
-        "--interval", "annualized", "--folds", "3", "--format", "json", "--reference",
-        "SPP=DF", "--candidates", "dbh", "dbh, SPP",
+        "--interval",
+        "annualized",
+        "--folds",
+        "3",
+        "--format",
+        "json",
+        "--reference",
+        "SPP=DF",
+        "--candidates",
+        "dbh",
+        "dbh, SPP",
     ];
     let got = run_json(&sb, &args(&with(&["rank", &h], &HISTORY, &tail)));
     let terms: Vec<Value> = got["candidates"]
@@ -191,7 +240,14 @@ fn a_reference_level_concerns_only_the_candidates_that_use_its_variable() {
     let fit = with(
         &["fit", "survival", &h],
         &HISTORY,
-        &["--interval", "annualized", "-p", "dbh", "--reference", "SPP=DF"],
+        &[
+            "--interval",
+            "annualized",
+            "-p",
+            "dbh",
+            "--reference",
+            "SPP=DF",
+        ],
     );
     let out = sb.run(&args(&fit));
     assert_eq!(out.status.code(), Some(2));
@@ -203,8 +259,19 @@ fn a_reference_level_concerns_only_the_candidates_that_use_its_variable() {
     let none = with(
         &["rank", &h],
         &HISTORY,
-        &["--interval", "annualized", "--reference", "XX=1", "--candidates", "dbh"],
+        &[
+            "--interval",
+            "annualized",
+            "--reference",
+            "XX=1",
+            "--candidates",
+            "dbh",
+        ],
     );
     let out = sb.run(&args(&none));
-    assert!(stderr(&out).contains("no candidate uses `XX`"), "{}", stderr(&out));
+    assert!(
+        stderr(&out).contains("no candidate uses `XX`"),
+        "{}",
+        stderr(&out)
+    );
 }

@@ -110,7 +110,13 @@ fn covariates_of_a_plot_occasion_equal_a_hand_computation() {
         .collect();
     assert_eq!(
         fates,
-        [("1", "alive"), ("2", "alive"), ("3", "dead"), ("4", "cut"), ("5", "alive")]
+        [
+            ("1", "alive"),
+            ("2", "alive"),
+            ("3", "dead"),
+            ("4", "cut"),
+            ("5", "alive")
+        ]
     );
     // The second period ends on 2 July 2001: day 183 of a 365-day year, so t2 = 2001 +
     // 182/365 and the interval 6.498630136986... years (derived analytically).
@@ -122,7 +128,9 @@ fn covariates_of_a_plot_occasion_equal_a_hand_computation() {
     }
     // Tree 6 is first recorded in 1995 (5.5 in, the smallest diameter, so at the default
     // threshold): ingrowth of 1990–1995, and from then on an ordinary tree.
-    assert!(second.iter().any(|r| r["TREE_NO"] == "6" && r["dbh2"] == "6.5"));
+    assert!(second
+        .iter()
+        .any(|r| r["TREE_NO"] == "6" && r["dbh2"] == "6.5"));
 }
 
 #[test]
@@ -161,7 +169,10 @@ fn ingrowth_per_plot_and_period_equals_the_scripts_count() {
     assert_eq!(p.ingrowth.threshold_dbh, 5.0); // the smallest DBH_IN in history.csv
     for q in &p.ingrowth.periods {
         let area = q.area.expect("fixed-area plots");
-        assert!([1.0 / 20.0, 1.0 / 10.0, 1.0 / 5.0].contains(&area), "{area}");
+        assert!(
+            [1.0 / 20.0, 1.0 / 10.0, 1.0 / 5.0].contains(&area),
+            "{area}"
+        );
     }
     // simulate.py lists dead trees again on plots 103, 108 and 111: ignored, not paired.
     assert!(p.counts.ignored_rows > 0);
@@ -184,7 +195,9 @@ fn a_tree_missing_at_a_remeasurement_is_an_error_listing_it() {
     let err = stderr(&out);
     // Tree 5 is alive on line 11 (1995) and absent from 2001-07-02 = 2001.4986301369863.
     assert!(
-        err.contains("plot \"7\", tree \"5\" (alive on line 11 at 1995, no record at 2001.4986301369863)"),
+        err.contains(
+            "plot \"7\", tree \"5\" (alive on line 11 at 1995, no record at 2001.4986301369863)"
+        ),
         "{err}"
     );
     assert!(err.contains("--missing-as"), "{err}");

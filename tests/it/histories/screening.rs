@@ -72,7 +72,14 @@ const EXPECTED: [(u64, &str, &str); 7] = [
 
 fn fit(sb: &Sandbox, kind: &str, extra: &[&str]) -> serde_json::Value {
     let path = sb.write("s.csv", SUSPICIOUS);
-    let mut a = vec!["fit", kind, path.to_str().unwrap(), "--history", "-p", "dbh"];
+    let mut a = vec![
+        "fit",
+        kind,
+        path.to_str().unwrap(),
+        "--history",
+        "-p",
+        "dbh",
+    ];
     if kind == "survival" {
         a.extend(["--interval", "annualized"]);
     }
@@ -107,7 +114,10 @@ fn suspicious_records_are_listed_with_lines_and_reasons() {
     assert_eq!(v["screening"]["left_out"], 0);
     assert_eq!(v["records"], 25); // 13 trees alive in 2000 + 12 alive in 2005
     let warnings = v["warnings"].to_string();
-    assert!(warnings.contains("screening flagged 4 records"), "{warnings}");
+    assert!(
+        warnings.contains("screening flagged 4 records"),
+        "{warnings}"
+    );
 }
 
 #[test]
@@ -127,5 +137,8 @@ fn drop_flagged_leaves_them_out_and_says_so_in_the_model_file() {
     assert!(model.contains("flagged_records = 3"), "{model}");
     assert!(model.contains("flagged_left_out = true"), "{model}");
     let warnings = dropped["warnings"].to_string();
-    assert!(warnings.contains("3 flagged records were left out (--drop-flagged)"), "{warnings}");
+    assert!(
+        warnings.contains("3 flagged records were left out (--drop-flagged)"),
+        "{warnings}"
+    );
 }
