@@ -13,6 +13,7 @@ mod interval_csv;
 mod interval_table;
 mod pair_file;
 mod pairing;
+mod pairing_walk;
 mod remeasure;
 mod screen;
 mod status;

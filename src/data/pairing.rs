@@ -3,9 +3,9 @@
 //! cut drop out; trees missing at a remeasurement are an error unless `--missing-as`; trees
 //! first recorded at a remeasurement are new, and ingrowth when at or above the threshold.
 
-use super::history::{History, MissingAs};
+use super::history::History;
 use super::ingrowth::{build_ingrowth, Ingrowth};
-use super::status::Status;
+use super::pairing_walk::Walk;
 use super::DataError;
 
 /// What happened to a tree by the end of an interval.
@@ -328,99 +328,5 @@ impl History {
                 if more > 0 { format!("; and {more} more") } else { String::new() }
             ),
         )
-    }
-}
-
-/// The walk over each tree's measurements.
-struct Walk<'a> {
-    history: &'a History,
-    occ: &'a [u32],
-    occ_start: &'a [usize],
-    threshold: f64,
-    /// (anchor row, next row, fate).
-    records: Vec<(usize, Option<usize>, Fate)>,
-    new_trees: Vec<NewTree>,
-    reappearances: Vec<Reappearance>,
-    /// (row alive, occasion without a record).
-    missing: Vec<(usize, usize)>,
-    counts: PairingCounts,
-}
-
-impl Walk<'_> {
-    /// One tree's rows in time order.
-    fn tree(&mut self, rows: &[usize]) {
-        let h = self.history;
-        // The interval whose fate ended the tree: (anchor, death row).
-        let mut ended: Option<(usize, Option<usize>)> = None;
-        for (j, &r) in rows.iter().enumerate() {
-            let o = self.occ[r] as usize;
-            let p = h.plot[r] as usize;
-            let alive = h.status[r] == Status::Alive;
-            if j == 0 && o > self.occ_start[p] {
-                // First recorded at a remeasurement: new in the period that ends here.
-                let ingrowth = alive && h.dbh[r] >= self.threshold;
-                match (alive, ingrowth) {
-                    (true, true) => self.counts.ingrowth += 1,
-                    (true, false) => self.counts.new_below_threshold += 1,
-                    (false, _) => self.counts.new_not_alive += 1,
-                }
-                self.new_trees.push(NewTree {
-                    row: r,
-                    period: o - 1 - p,
-                    ingrowth,
-                });
-            } else if alive {
-                if let Some((anchor, death)) = ended.take() {
-                    self.counts.reappeared += 1;
-                    self.reappearances.push(Reappearance {
-                        anchor,
-                        death,
-                        row: r,
-                    });
-                }
-            } else {
-                let fate_of_previous = j > 0
-                    && h.status[rows[j - 1]] == Status::Alive
-                    && self.occ[rows[j - 1]] as usize + 1 == o;
-                if !fate_of_previous {
-                    self.counts.ignored_rows += 1;
-                }
-            }
-            if alive && o + 1 < self.occ_start[p + 1] {
-                let next = rows
-                    .get(j + 1)
-                    .copied()
-                    .filter(|&q| self.occ[q] as usize == o + 1);
-                let fate = match next.map(|q| h.status[q]) {
-                    Some(Status::Alive) => Fate::Alive,
-                    Some(Status::Dead) => Fate::Dead,
-                    Some(Status::Censored) => Fate::Cut,
-                    None => match h.spec.missing_as {
-                        MissingAs::Error => {
-                            self.missing.push((r, o + 1));
-                            continue;
-                        }
-                        MissingAs::Dead => {
-                            self.counts.missing_dead += 1;
-                            Fate::Dead
-                        }
-                        MissingAs::Drop => {
-                            self.counts.missing_dropped += 1;
-                            Fate::Missing
-                        }
-                    },
-                };
-                match fate {
-                    Fate::Alive => self.counts.alive += 1,
-                    Fate::Dead => self.counts.dead += 1,
-                    Fate::Cut => self.counts.cut += 1,
-                    Fate::Missing => {}
-                }
-                if matches!(fate, Fate::Dead | Fate::Cut) {
-                    ended = Some((r, next));
-                }
-                self.records.push((r, next, fate));
-            }
-        }
     }
 }

@@ -7,6 +7,7 @@ use std::collections::HashMap;
 
 use ndarray::Array1;
 
+use super::source::{has_column, load_records, plot_column, Loaded};
 use super::survival::{SurvivalResponse, SurvivalSpec};
 use super::{common_interval, term_needs, Years};
 use crate::data::{
@@ -80,7 +81,7 @@ pub fn check_interval(spec: &SurvivalSpec) -> Result<(), Error> {
     };
     if spec.interval != IntervalKind::Fixed
         && spec.years == Years::Default
-        && !super::source::has_column(&spec.data, &spec.data.names.years)
+        && !has_column(&spec.data, &spec.data.names.years)
     {
         return Err(Error::Usage(format!(
             "--interval {} needs the interval of each record: give --years-col COL (the file has no `{}` column)",
@@ -142,12 +143,11 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         }
     }
     if opts.stands {
-        let plot = super::source::plot_column(&spec.data);
-        required.push(Required::new(plot, &opts.stands_why));
+        required.push(Required::new(plot_column(&spec.data), &opts.stands_why));
     }
     let years_col = match &spec.years {
         Years::Column(c) => Some(c.clone()),
-        Years::Default if super::source::has_column(&spec.data, &spec.data.names.years) => {
+        Years::Default if has_column(&spec.data, &spec.data.names.years) => {
             Some(spec.data.names.years.clone())
         }
         _ => None,
@@ -170,8 +170,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         units: spec.data.units,
         status_codes: None,
     };
-    let loaded = super::source::load_records(&spec.data, load)?;
-    let records = loaded.records;
+    let Loaded { records, screening } = load_records(&spec.data, load)?;
     let (period_years, years) = resolve_years(spec, &records)?;
     let y = response(spec, &records)?;
     let num = |c: &Option<String>| -> Result<Option<Array1<f64>>, Error> {
@@ -199,7 +198,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         .map(|c| codes(&records, c))
         .transpose()?;
     let stands = if opts.stands {
-        Some(codes(&records, super::source::plot_column(&spec.data))?)
+        Some(codes(&records, plot_column(&spec.data))?)
     } else {
         None
     };
@@ -216,7 +215,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         clusters,
         stands,
         warnings,
-        screening: loaded.screening,
+        screening,
     })
 }
 
