@@ -97,14 +97,16 @@ pub struct Flag {
     pub record: Option<usize>,
 }
 
-/// Median of a non-empty slice (sorted in place).
+/// Median of a non-empty slice (reordered in place; O(n) selection).
 fn median(v: &mut [f64]) -> f64 {
-    v.sort_unstable_by(f64::total_cmp);
     let n = v.len();
+    let (below, mid, _) = v.select_nth_unstable_by(n / 2, f64::total_cmp);
+    let upper = *mid;
     if n % 2 == 1 {
-        v[n / 2]
+        upper
     } else {
-        0.5 * (v[n / 2 - 1] + v[n / 2])
+        let lower = below.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        0.5 * (lower + upper)
     }
 }
 
@@ -140,11 +142,37 @@ fn cell(frame: &Frame, column: Option<&str>, i: usize) -> String {
         .unwrap_or_default()
 }
 
-fn number(frame: &Frame, column: &str, i: usize) -> f64 {
-    frame
-        .column(column)
-        .and_then(|c| c.number(i).ok())
-        .unwrap_or(f64::NAN)
+/// A column as numbers (`NaN` for empty or text cells, or when the column is absent).
+fn numbers(frame: &Frame, column: &str) -> Vec<f64> {
+    match frame.column(column) {
+        Some(c) => (0..frame.len())
+            .map(|i| c.number(i).unwrap_or(f64::NAN))
+            .collect(),
+        None => vec![f64::NAN; frame.len()],
+    }
+}
+
+/// The group of every record (index into the names) by the cell text of column `by`; one
+/// group named "" without it.
+fn groups(frame: &Frame, by: Option<&str>) -> (Vec<u32>, Vec<String>) {
+    let Some(column) = by.and_then(|c| frame.column(c)) else {
+        return (vec![0; frame.len()], vec![String::new()]);
+    };
+    let mut index: HashMap<String, u32> = HashMap::new();
+    let mut names = Vec::new();
+    let of = (0..frame.len())
+        .map(|i| {
+            let text = column.text(i).unwrap_or_default();
+            if let Some(&g) = index.get(text.as_ref()) {
+                return g;
+            }
+            let g = names.len() as u32;
+            names.push(text.to_string());
+            index.insert(text.into_owned(), g);
+            g
+        })
+        .collect();
+    (of, names)
 }
 
 /// Screen the loaded records of `frame` (role columns `names`, plot column `plot`) and, for a
@@ -158,12 +186,16 @@ pub fn screen(
 ) -> Vec<Flag> {
     let n = frame.len();
     let by = spec.by.as_deref();
+    let (d1s, d2s, years) = (
+        numbers(frame, &names.dbh),
+        numbers(frame, &names.dbh2),
+        numbers(frame, &names.years),
+    );
     let mut increments: Vec<(usize, f64, f64, f64)> = Vec::new();
     for i in 0..n {
-        let (d1, d2) = (number(frame, &names.dbh, i), number(frame, &names.dbh2, i));
-        let years = number(frame, &names.years, i);
-        let years = if years.is_finite() && years > 0.0 {
-            years
+        let (d1, d2) = (d1s[i], d2s[i]);
+        let years = if years[i].is_finite() && years[i] > 0.0 {
+            years[i]
         } else {
             1.0
         };
@@ -171,16 +203,18 @@ pub fn screen(
             increments.push((i, d1, d2, (d2 - d1) / years));
         }
     }
-    let mut grouped: HashMap<String, Vec<f64>> = HashMap::new();
+    let (group_of, group_names) = groups(frame, by);
+    let mut grouped: Vec<Vec<f64>> = vec![Vec::new(); group_names.len()];
     for &(i, _, _, a) in &increments {
-        grouped.entry(cell(frame, by, i)).or_default().push(a);
+        grouped[group_of[i] as usize].push(a);
     }
     let all: Vec<f64> = increments.iter().map(|x| x.3).collect();
     let stats = Stats {
         groups: grouped
-            .into_iter()
-            .filter(|(_, v)| v.len() >= MIN_GROUP)
-            .map(|(k, v)| (k, median_mad(&v)))
+            .iter()
+            .zip(&group_names)
+            .filter(|(v, _)| v.len() >= MIN_GROUP)
+            .map(|(v, k)| (k.clone(), median_mad(v)))
             .collect(),
         pooled: (!all.is_empty()).then(|| median_mad(&all)),
     };
@@ -202,13 +236,13 @@ pub fn screen(
         record: Some(i),
     };
     for &(i, d1, d2, a) in &increments {
-        let g = cell(frame, by, i);
-        if let Some((m, mad)) = stats.of(&g).filter(|s| s.1 > 0.0) {
+        let g = &group_names[group_of[i] as usize];
+        if let Some((m, mad)) = stats.of(g).filter(|s| s.1 > 0.0) {
             let z = MAD_SCALE * (a - m) / mad;
             if z.abs() > z_limit {
                 let detail = format!(
                     "annual diameter increment {a:.4} ({d1} to {d2}): robust z {z:.2}{} (median {m:.4}, MAD {mad:.4})",
-                    group_label(&g)
+                    group_label(g)
                 );
                 flags.push(flag(i, FlagReason::IncrementOutlier, z, detail));
             }
