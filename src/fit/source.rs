@@ -175,11 +175,15 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
     if let Some(by) = &screen_opts.by {
         extra.push((by.clone(), "--screen-by"));
     }
-    extra.push((plot_column(data).to_string(), "the plot of each record"));
+    let plot_why = match data.input.plot {
+        Some(_) => "--plot",
+        None => "the plot of each record",
+    };
+    extra.push((plot_column(data).to_string(), plot_why));
     extra.push((names.tree.clone(), "the tree of each record"));
     for (column, why) in extra {
-        let present = has_column(data, &column);
-        if (why == "--screen-by" || present) && !spec.required.iter().any(|r| r.column == column) {
+        let needed = why.starts_with("--") || has_column(data, &column);
+        if needed && !spec.required.iter().any(|r| r.column == column) {
             spec.required.push(Required::new(column, why));
         }
     }

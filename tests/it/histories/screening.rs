@@ -142,3 +142,36 @@ fn drop_flagged_leaves_them_out_and_says_so_in_the_model_file() {
         "{warnings}"
     );
 }
+
+#[test]
+fn a_tree_counted_dead_when_missing_and_seen_again_is_flagged() {
+    // Tree 2 is alive in 2000 (line 3), absent in 2005, alive in 2010 (line 7). With
+    // --missing-as dead its 2000–05 interval ends dead, which the 2010 record contradicts.
+    let sb = Sandbox::new();
+    let path = sb.write(
+        "m.csv",
+        "stand,tree,year,status,dbh,expansion\nA,1,2000,alive,10,50\nA,2,2000,alive,12,50\n\
+         A,1,2005,alive,11,50\nA,3,2005,alive,10,50\nA,1,2010,alive,12,50\nA,2,2010,alive,14,50\n\
+         A,3,2010,alive,11,50\n",
+    );
+    let out = sb.run(&[
+        "fit",
+        "growth",
+        path.to_str().unwrap(),
+        "--history",
+        "--missing-as",
+        "dead",
+        "-p",
+        "dbh",
+        "--screen",
+        "f.csv",
+    ]);
+    assert!(out.status.success(), "{}", stderr(&out));
+    let listing = std::fs::read_to_string(sb.path("f.csv")).unwrap();
+    let row = listing.lines().nth(1).unwrap_or_default();
+    assert!(
+        row.starts_with("3,7,A,2,alive_after_death,2010,"),
+        "{listing}"
+    );
+    assert!(stdout(&out).contains("counted dead"), "{}", stdout(&out));
+}
