@@ -1,6 +1,6 @@
 //! Reading a measurement history: one row per tree per measurement of its plot, with the
 //! measurement time, status, diameter, expansion factor and attributes (docs/histories.md).
-//! [`History::pair`](super::Pairing) turns it into interval records.
+//! [`History::pair`] turns it into interval records ([`Pairing`](super::Pairing)).
 
 use std::path::Path;
 

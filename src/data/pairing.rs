@@ -160,7 +160,7 @@ impl History {
     /// # Errors
     /// [`DataError::File`] when no tree is alive anywhere, or when trees alive at a
     /// measurement have no record at the plot's next one and `missing_as` is
-    /// [`MissingAs::Error`] (listing the first trees, with lines and times).
+    /// [`MissingAs::Error`](super::MissingAs::Error) (listing the first trees, with lines and times).
     ///
     /// # Examples
     /// ```
