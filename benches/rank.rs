@@ -62,6 +62,7 @@ fn rank_fit_1m(c: &mut Criterion) {
                 references: BTreeMap::new(),
                 intercept: true,
                 units: Units::Metric,
+                input: Default::default(),
             },
             predictors: String::new(),
             response: SurvivalResponse::Status {

@@ -68,6 +68,7 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
         references,
         intercept: true,
         units: Units::Metric,
+        input: Default::default(),
     };
     println!("stemcast demo — an invented planting trial (12 plots, remeasured after 5 years)");
     println!("data: {}\n", data_path.display());

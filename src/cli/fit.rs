@@ -4,8 +4,10 @@
 use std::path::PathBuf;
 
 use clap::Subcommand;
+use stemcast::data::flags_csv;
 use stemcast::fit::estimate::Estimator;
 use stemcast::fit::growth::{fit_growth, GrowthSpec, GrowthTarget};
+use stemcast::fit::source::Screening;
 use stemcast::fit::summary;
 use stemcast::fit::survival::{fit_survival_with, FitOptions, SurvivalResponse, SurvivalSpec};
 use stemcast::model::file::{GrowthResponse, ModelFile};
@@ -37,6 +39,14 @@ pub enum FitCommand {
 fn write_model(path: &Option<PathBuf>, model: &ModelFile) -> Result<(), Error> {
     if let Some(p) = path {
         stemcast::atomic::write_atomic(p, model.to_toml()?.as_bytes())?;
+    }
+    Ok(())
+}
+
+/// Write the screening flags to `--screen FILE`, when given.
+pub(crate) fn write_screen(path: &Option<PathBuf>, screening: &Screening) -> Result<(), Error> {
+    if let Some(p) = path {
+        stemcast::atomic::write_atomic(p, flags_csv(&screening.flags).as_bytes())?;
     }
     Ok(())
 }
@@ -73,6 +83,7 @@ fn survival(a: SurvivalArgs) -> Result<(), Error> {
         stemcast::atomic::write_atomic(path, svg.as_bytes())?;
     }
     write_model(&a.common.out, &fit.model)?;
+    write_screen(&a.common.data.input.screen, &fit.screening)?;
     let source = a.common.data.data.display().to_string();
     print(
         a.common.format,
@@ -84,7 +95,7 @@ fn survival(a: SurvivalArgs) -> Result<(), Error> {
 
 /// Refuse `--calibration-svg` before fitting when the chart cannot be drawn.
 fn check_svg_possible(spec: &SurvivalSpec) -> Result<(), Error> {
-    if !stemcast::fit::file_has_column(&spec.data.path, &spec.data.names.dbh) {
+    if !stemcast::fit::source::has_column(&spec.data, &spec.data.names.dbh) {
         return Err(Error::Usage(format!(
             "--calibration-svg: {} has no diameter column `{}` (name it with --dbh COL)",
             spec.data.path.display(),
@@ -115,13 +126,14 @@ pub fn run(cmd: FitCommand) -> Result<(), Error> {
                 }),
             };
             let spec = GrowthSpec {
-                data: data_options(&a.common.data, Some(&a.status), Some(&a.dbh2))?,
+                data: data_options(&a.common.data, a.status.as_deref(), a.dbh2.as_deref())?,
                 predictors: a.common.predictors.clone(),
                 target,
                 years: years(&a.common.data),
             };
             let fit = fit_growth(&spec)?;
             write_model(&a.common.out, &fit.model)?;
+            write_screen(&a.common.data.input.screen, &fit.screening)?;
             let source = a.common.data.data.display().to_string();
             print(
                 a.common.format,

@@ -12,6 +12,8 @@ use stemcast::model::glm::FitControl;
 use stemcast::model::link::Link;
 use stemcast::Error;
 
+use super::input_args::{input_options, FitInputArgs};
+
 /// Output format of the summary.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum Format {
@@ -47,6 +49,15 @@ pub(crate) enum UnitsArg {
     Imperial,
 }
 
+impl From<UnitsArg> for Units {
+    fn from(u: UnitsArg) -> Self {
+        match u {
+            UnitsArg::Metric => Units::Metric,
+            UnitsArg::Imperial => Units::Imperial,
+        }
+    }
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub(crate) enum ResponseArg {
     #[value(alias = "ln_bai")]
@@ -58,9 +69,11 @@ pub(crate) enum ResponseArg {
 /// Where the data is and how to read it: shared by `fit survival`, `fit growth` and `rank`.
 #[derive(Debug, Args)]
 pub struct DataArgs {
-    /// Remeasurement CSV: one row per tree.
+    /// Remeasurement CSV: one row per tree and period, or with --history one row per tree per
+    /// measurement.
     pub(crate) data: PathBuf,
-    /// Stand (plot) column, for the derived covariates ba, bal, qmd, rel_dbh, stems.
+    /// Stand (plot) column, for the derived covariates ba, bal, qmd, rel_dbh, stems. In a
+    /// history, the plot: covariates are computed per plot and measurement.
     #[arg(long, default_value = "stand")]
     pub(crate) stand: String,
     /// Expansion-factor column (stems per hectare, or per acre with --units imperial).
@@ -91,6 +104,8 @@ pub struct DataArgs {
     /// Units of diameters and per-area values.
     #[arg(long, value_enum, default_value = "metric")]
     pub(crate) units: UnitsArg,
+    #[command(flatten)]
+    pub(crate) input: FitInputArgs,
 }
 
 /// Options shared by both fits.
@@ -114,9 +129,10 @@ pub struct CommonArgs {
 /// and `rank`.
 #[derive(Debug, Args)]
 pub struct SurvivalModelArgs {
-    /// Status column: 1/0, true/false, yes/no, alive/dead; cut/harvested/removed are censored.
-    #[arg(long, default_value = "alive")]
-    pub(crate) status: String,
+    /// Status column: 1/0, true/false, yes/no, alive/dead; cut/harvested/removed are censored;
+    /// other codes with --status-codes. Default `alive` (`status` with --history).
+    #[arg(long, value_name = "COL")]
+    pub(crate) status: Option<String>,
     /// What a status of 1 means, i.e. what the modelled probability is about.
     #[arg(long, value_enum, default_value = "alive")]
     pub(crate) outcome: OutcomeArg,
@@ -201,12 +217,13 @@ weight; for weighted or successes/trials data they are null and `unavailable` sa
 pub struct GrowthArgs {
     #[command(flatten)]
     pub(crate) common: CommonArgs,
-    /// Column of the diameter at the second measurement.
-    #[arg(long, default_value = "dbh2")]
-    pub(crate) dbh2: String,
-    /// Status column, used when present to count dead and cut trees separately.
-    #[arg(long, default_value = "alive")]
-    pub(crate) status: String,
+    /// Column of the diameter at the second measurement (default `dbh2`; not with --history).
+    #[arg(long, value_name = "COL")]
+    pub(crate) dbh2: Option<String>,
+    /// Status column, used when present to count dead and cut trees separately. Default
+    /// `alive` (`status` with --history).
+    #[arg(long, value_name = "COL")]
+    pub(crate) status: Option<String>,
     /// Response computed from the two diameters.
     #[arg(
         long,
@@ -225,18 +242,28 @@ pub(crate) fn data_options(
     status: Option<&str>,
     dbh2: Option<&str>,
 ) -> Result<DataOptions, Error> {
-    let mut names = ColumnNames {
+    let input = input_options(&c.input)?;
+    let history = input.history.is_some();
+    if history && (c.years.is_some() || c.years_col.is_some()) {
+        return Err(Error::Usage(
+            "--history computes each interval from the measurement times: drop --years and --years-col".into(),
+        ));
+    }
+    if history && dbh2.is_some() {
+        return Err(Error::Usage(
+            "--dbh2 names the second diameter of a pair file; a history has one diameter column (--dbh)".into(),
+        ));
+    }
+    let default_status = if history { "status" } else { "alive" };
+    let names = ColumnNames {
         stand: c.stand.clone(),
+        tree: c.input.reading.tree.clone(),
         expansion: c.expansion.clone(),
         dbh: c.dbh.clone(),
+        dbh2: dbh2.unwrap_or("dbh2").to_string(),
+        status: status.unwrap_or(default_status).to_string(),
         ..ColumnNames::default()
     };
-    if let Some(s) = status {
-        names.status = s.to_string();
-    }
-    if let Some(d) = dbh2 {
-        names.dbh2 = d.to_string();
-    }
     Ok(DataOptions {
         path: c.data.clone(),
         names,
@@ -248,6 +275,7 @@ pub(crate) fn data_options(
             UnitsArg::Metric => Units::Metric,
             UnitsArg::Imperial => Units::Imperial,
         },
+        input,
     })
 }
 
@@ -278,7 +306,7 @@ pub(crate) fn survival_spec(
         },
     };
     Ok(SurvivalSpec {
-        data: data_options(data, Some(&m.status), None)?,
+        data: data_options(data, m.status.as_deref(), None)?,
         predictors,
         response,
         weights: m.weights.clone(),

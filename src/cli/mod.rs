@@ -9,6 +9,8 @@ mod fit;
 mod fit_args;
 mod fit_height;
 mod fit_ingrowth;
+mod input_args;
+mod intervals;
 mod project;
 mod rank;
 
@@ -42,6 +44,8 @@ enum Command {
     Fit(Box<fit::FitCommand>),
     /// Compare candidate predictor sets of a survival model: AIC, weights, BIC, AUC, CV log-loss.
     Rank(Box<rank::RankArgs>),
+    /// Pair a measurement history into the interval table (fates, derived covariates).
+    Intervals(Box<intervals::Args>),
 }
 
 /// Run the parsed command.
@@ -54,5 +58,6 @@ pub fn run(cli: Cli) -> Result<(), Error> {
         Command::Batch(a) => batch::run(&a),
         Command::Fit(c) => fit::run(*c),
         Command::Rank(a) => rank::run(*a),
+        Command::Intervals(a) => intervals::run(&a),
     }
 }

@@ -1,11 +1,18 @@
-//! `stemcast rank`: compare candidate predictor sets of a survival model on the same records.
+//! `stemcast rank`: compare candidate predictor sets of a survival model (or, with
+//! `--growth`, of a growth model) on the same records.
 
 use clap::{Args, ValueEnum};
+use stemcast::fit::growth::{GrowthSpec, GrowthTarget};
 use stemcast::fit::rank::{rank, RankSpec};
+use stemcast::fit::rank_growth::{rank_growth, GrowthRankSpec};
+use stemcast::fit::rank_growth_render::{rank_growth_csv, rank_growth_json, rank_growth_text};
 use stemcast::fit::rank_render::{rank_csv, rank_json, rank_text};
+use stemcast::model::file::GrowthResponse;
 use stemcast::Error;
 
-use super::fit_args::{control, survival_spec, DataArgs, SurvivalModelArgs};
+use super::fit_args::{
+    control, data_options, survival_spec, years, DataArgs, ResponseArg, SurvivalModelArgs,
+};
 
 /// Output format of the ranking.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -27,14 +34,26 @@ pub struct RankArgs {
     /// Candidate predictor lists, one quoted argument each, e.g. --candidates "dbh" "dbh, bal".
     #[arg(long, num_args = 1.., required = true, value_name = "PREDICTORS")]
     candidates: Vec<String>,
-    /// Number of cross-validation folds; all trees of a stand fall in one fold.
+    /// Number of cross-validation folds; all trees of a plot (--plot, else the stand) fall in
+    /// one fold.
     #[arg(long, default_value_t = 10)]
     folds: usize,
-    /// Seed of the shuffle of stands into folds (the same folds for every candidate).
+    /// Seed of the shuffle of plots into folds (the same folds for every candidate).
     #[arg(long, default_value_t = 1)]
     seed: u64,
     #[command(flatten)]
     model: SurvivalModelArgs,
+    /// Rank growth models instead of survival models: least squares on --response, with
+    /// R², the cross-validated RMSE of the response and F-tests between nested candidates.
+    #[arg(long, conflicts_with_all = ["outcome", "successes", "trials", "weights", "offset", "link", "interval", "max_iterations"])]
+    growth: bool,
+    /// With --growth: the response computed from the two diameters.
+    #[arg(long, value_enum, requires = "growth", default_value = "ln-bai")]
+    response: ResponseArg,
+    /// With --growth: column of the diameter at the second measurement (default `dbh2`; not
+    /// with --history).
+    #[arg(long, value_name = "COL", requires = "growth")]
+    dbh2: Option<String>,
     /// Output format on standard output.
     #[arg(long, value_enum, default_value = "text")]
     format: RankFormat,
@@ -44,13 +63,20 @@ const RANK_HELP: &str =
     "Every candidate is fitted by maximum likelihood on the same records (loaded once with the
 columns all candidates need) and the table is sorted by AIC. Columns: k coefficients,
 log-likelihood, AIC, ΔAIC, Akaike weight exp(-ΔAIC/2) normalised over the candidates, BIC, AUC
-(null for weighted or successes/trials data) and the cross-validated log-loss: stands are
-shuffled with --seed and dealt to --folds folds; each fold is predicted from a fit on the
-others. Candidates whose columns are a subset of another's get a likelihood-ratio test.
+(null for weighted or successes/trials data) and the cross-validated log-loss: plots (--plot,
+else the stand column) are shuffled with --seed and dealt to --folds folds; each fold is
+predicted from a fit on the others. Candidates whose columns are a subset of another's get a
+likelihood-ratio test. A --reference applies to the candidates that use its variable.
+With --growth the candidates are growth models fitted by least squares on --response: the
+columns are k, log-likelihood, AIC, ΔAIC, weight, BIC (AIC and BIC count σ), adjusted R²,
+residual SD and the cross-validated RMSE of the response, and nested pairs get F-tests.
 Write the CSV or JSON to a file with shell redirection (stemcast rank ... --format csv > r.csv).";
 
 /// Run `rank`.
 pub fn run(a: RankArgs) -> Result<(), Error> {
+    if a.growth {
+        return run_growth(&a);
+    }
     let spec = RankSpec {
         survival: survival_spec(&a.data, &a.model, String::new())?,
         candidates: a.candidates.clone(),
@@ -59,10 +85,36 @@ pub fn run(a: RankArgs) -> Result<(), Error> {
         control: control(&a.model),
     };
     let ranking = rank(&spec)?;
+    super::fit::write_screen(&a.data.input.screen, &ranking.screening)?;
     match a.format {
         RankFormat::Text => print!("{}", rank_text(&ranking)),
         RankFormat::Csv => print!("{}", rank_csv(&ranking)),
         RankFormat::Json => println!("{:#}", rank_json(&ranking)),
+    }
+    Ok(())
+}
+
+fn run_growth(a: &RankArgs) -> Result<(), Error> {
+    let spec = GrowthRankSpec {
+        growth: GrowthSpec {
+            data: data_options(&a.data, a.model.status.as_deref(), a.dbh2.as_deref())?,
+            predictors: String::new(),
+            target: GrowthTarget::Increment(match a.response {
+                ResponseArg::LnBai => GrowthResponse::LnBai,
+                ResponseArg::AnnualIncrement => GrowthResponse::AnnualIncrement,
+            }),
+            years: years(&a.data),
+        },
+        candidates: a.candidates.clone(),
+        folds: a.folds,
+        seed: a.seed,
+    };
+    let ranking = rank_growth(&spec)?;
+    super::fit::write_screen(&a.data.input.screen, &ranking.screening)?;
+    match a.format {
+        RankFormat::Text => print!("{}", rank_growth_text(&ranking)),
+        RankFormat::Csv => print!("{}", rank_growth_csv(&ranking)),
+        RankFormat::Json => println!("{:#}", rank_growth_json(&ranking)),
     }
     Ok(())
 }

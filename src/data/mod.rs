@@ -1,25 +1,49 @@
-//! Reading CSV data: remeasurement records and tree lists, column mapping, units, validation
-//! with file:line:column errors, and the per-stand derived covariates.
+//! Reading CSV data: remeasurement records (interval pairs or measurement histories, see
+//! docs/histories.md) and tree lists, column mapping, units, validation with file:line:column
+//! errors, the per-stand derived covariates, and data screening.
 
 mod columns;
 mod covariates;
 mod derive;
+mod duplicates;
 mod frame;
+mod history;
+mod ingrowth;
+mod interval_csv;
+mod interval_table;
+mod pair_file;
+mod pairing;
+mod pairing_walk;
 mod remeasure;
+mod screen;
 mod status;
+mod status_codes;
 mod table;
 mod tree_list;
 mod tree_stream;
 mod trees;
 mod units;
+mod when;
 
 pub use covariates::{stand_covariates, DerivedCovariate, StandCovariates};
 pub use frame::{Frame, FrameColumn};
+pub use history::{parse_history, read_history, History, HistorySpec, MissingAs};
+pub use ingrowth::{Ingrowth, IngrowthPeriod};
+pub use interval_csv::frame_csv;
+pub use interval_table::{
+    derive_intervals, interval_header, interval_names, load_history, load_paired, HistoryLoad,
+    ADDED_COLUMNS, DBH2_COLUMN, FATE_COLUMN, OCCASION_COLUMN, T1_COLUMN, T2_COLUMN, YEARS_COLUMN,
+};
+pub use pair_file::{load_remeasurement, load_remeasurement_bytes};
+pub use pairing::{Fate, Intervals, NewTree, Occasion, Pairing, PairingCounts, Reappearance};
 pub use remeasure::{
-    load_remeasurement, load_remeasurement_bytes, ColumnNames, Purpose, RemeasureCounts,
-    RemeasureSpec, Remeasurement, Required,
+    ColumnNames, Purpose, RemeasureCounts, RemeasureSpec, Remeasurement, Required,
+};
+pub use screen::{
+    flags_csv, median_mad, screen, Flag, FlagReason, ScreenSpec, MIN_GROUP, ROBUST_Z_LIMIT,
 };
 pub use status::{Outcome, Status, UnknownStatus, ACCEPTED_STATUS};
+pub use status_codes::{StatusCodes, MAX_STATUS_CODES};
 pub use table::{parse_table, read_table, sha256_hex, Table, TableOptions};
 pub(crate) use tree_list::Constant;
 pub use tree_list::{Attribute, AttributeValues, TreeList};
@@ -29,6 +53,7 @@ pub use units::{
     qmd_from_basal_area, reineke_sdi, Units, UnknownUnits, CM_PER_INCH, HA_PER_ACRE,
     REINEKE_EXPONENT,
 };
+pub use when::{decimal_year, parse_time, YEAR_RANGE};
 
 /// An error in input data. Every variant names the file; cell errors also name the line
 /// (1-based, the header being line 1) and the column.

@@ -1,13 +1,12 @@
 //! Loading remeasurement records (`docs/data.md#remeasurement-files`) into the [`Frame`] of a
 //! survival or growth fit.
 
-use std::path::Path;
-
 use super::covariates::DerivedCovariate;
 use super::derive::{add_derived, check_positive, StandPlan};
 use super::frame::{Frame, FrameColumn};
 use super::status::{status_per_row, Outcome, Status};
-use super::table::{parse_table, read_bytes, Table, TableOptions};
+use super::status_codes::StatusCodes;
+use super::table::{Table, TableOptions};
 use super::units::Units;
 use super::DataError;
 
@@ -101,6 +100,9 @@ pub struct RemeasureSpec {
     pub categorical: Vec<String>,
     /// Units of diameters and expansion factors.
     pub units: Units,
+    /// The meaning of each status code (`--status-codes`); `None` reads the usual words
+    /// (see [`Status::parse`]).
+    pub status_codes: Option<StatusCodes>,
 }
 
 /// How many rows went where.
@@ -142,52 +144,16 @@ pub struct Remeasurement {
     pub sha256: String,
 }
 
-/// Load the remeasurement file at `path` for the fit described by `spec`.
-///
-/// # Errors
-/// - [`DataError::Io`] when the file cannot be read; [`DataError::File`] and
-///   [`DataError::Record`] for an empty file, duplicate column names or ragged rows.
-/// - [`DataError::MissingColumn`] for a required column the file lacks.
-/// - [`DataError::Cell`] (line 1, the header) when a derived covariate that would be computed
-///   is also a file column (use `--use-column NAME` or rename it); [`DataError::File`] when no
-///   record is left.
-/// - [`DataError::Cell`] for a `dbh` (or `dbh2` in a growth fit) that is not a positive
-///   number, a non-positive `years` or `expansion`, an empty stand, and a status that is
-///   empty or not understood.
-pub fn load_remeasurement(path: &Path, spec: &RemeasureSpec) -> Result<Remeasurement, DataError> {
-    let source = path.display().to_string();
-    let bytes = read_bytes(path)?;
-    load_remeasurement_bytes(&bytes, &source, spec)
-}
-
-/// [`load_remeasurement`] on CSV bytes already in memory, named `source` in messages.
-///
-/// # Examples
-/// ```
-/// use stemcast::data::{load_remeasurement_bytes, DerivedCovariate, RemeasureSpec, Required};
-/// let csv = b"stand,dbh,alive,expansion\nA,10,1,100\nA,30,cut,100\nA,,1,100\n";
-/// let spec = RemeasureSpec {
-///     required: vec![Required::new("dbh", "term `dbh`")],
-///     derived: vec![DerivedCovariate::Bal],
-///     ..RemeasureSpec::default()
-/// };
-/// let r = load_remeasurement_bytes(csv, "remeasure.csv", &spec).unwrap();
-/// assert_eq!((r.counts.records, r.counts.censored, r.counts.ingrowth), (1, 1, 1));
-/// assert_eq!(r.alive.as_deref(), Some(&[true][..]));
-/// // The cut 30 cm tree still counts as larger: π/40000 · 30² · 100 m²/ha.
-/// let bal = r.frame.numeric("bal").unwrap()[0];
-/// assert!((bal - 7.0685835).abs() < 1e-6);
-/// ```
-///
-/// # Errors
-/// As [`load_remeasurement`].
-pub fn load_remeasurement_bytes(
-    bytes: &[u8],
+/// The body of [`load_remeasurement_bytes`](super::load_remeasurement_bytes) once the file's `header` is known: `read` turns
+/// the [`TableOptions`] worked out here (columns to read, categorical columns) into the table
+/// of records. Histories reuse it with a `read` that pairs measurements into intervals.
+pub(super) fn load_with(
+    header: Vec<String>,
     source: &str,
     spec: &RemeasureSpec,
+    read_table: impl FnOnce(&TableOptions) -> Result<Table, DataError>,
 ) -> Result<Remeasurement, DataError> {
     let names = &spec.names;
-    let header = super::table::parse_header(bytes, source)?;
     let has = |c: &str| header.iter().any(|h| h == c);
     let missing = |column: &str, why: &str| DataError::MissingColumn {
         file: source.to_string(),
@@ -271,7 +237,7 @@ pub fn load_remeasurement_bytes(
         mut frame,
         header,
         sha256,
-    } = parse_table(bytes, source, &options)?;
+    } = read_table(&options)?;
     let n = frame.len();
 
     // Rows with an empty first diameter are trees that grew in between.
@@ -293,6 +259,7 @@ pub fn load_remeasurement_bytes(
             &frame,
             &names.status,
             spec.one_means,
+            spec.status_codes.as_ref(),
             &has_first,
         )?)
     } else {

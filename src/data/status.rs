@@ -5,6 +5,7 @@ use std::str::FromStr;
 
 use super::columns::EMPTY_CODE;
 use super::frame::{Frame, FrameColumn};
+use super::status_codes::StatusCodes;
 use super::DataError;
 
 /// What a status value of 1 (or true, yes) means, i.e. what the survival model's probability
@@ -106,34 +107,70 @@ impl Status {
 }
 
 /// The status of every row with a first diameter (`Alive` as a placeholder elsewhere). Each
-/// distinct value is parsed once.
+/// distinct value is parsed once: by `codes` when given (`--status-codes`), else by
+/// [`Status::parse`].
 pub(super) fn status_per_row(
     frame: &Frame,
     column: &str,
     one_means: Outcome,
-    has_first: &[bool],
+    codes: Option<&StatusCodes>,
+    rows: &[bool],
 ) -> Result<Vec<Status>, DataError> {
-    let Some(FrameColumn::Text { levels, codes, .. }) = frame.columns.get(column) else {
+    let Some(FrameColumn::Text {
+        levels,
+        codes: cells,
+        ..
+    }) = frame.columns.get(column)
+    else {
         return Ok(vec![Status::Alive; frame.len()]);
     };
-    let parsed: Vec<_> = levels.iter().map(|l| Status::parse(l, one_means)).collect();
-    let mut out = Vec::with_capacity(codes.len());
-    for (i, &code) in codes.iter().enumerate() {
-        if !has_first[i] {
+    let parsed: Vec<_> = levels
+        .iter()
+        .map(|l| parse_with(l, one_means, codes))
+        .collect();
+    let mut out = Vec::with_capacity(cells.len());
+    for (i, &code) in cells.iter().enumerate() {
+        if !rows[i] {
             out.push(Status::Alive);
             continue;
         }
         let cell_error =
             |message: String| DataError::cell(&frame.source, frame.lines[i], column, message);
         if code == EMPTY_CODE {
+            let accepted = match codes {
+                Some(c) => format!("one of the codes {c}"),
+                None => ACCEPTED_STATUS.to_string(),
+            };
             return Err(cell_error(format!(
-                "the status is empty on a row with a first diameter; use {ACCEPTED_STATUS}"
+                "the status is empty on a row with a first diameter; use {accepted}"
             )));
         }
         match &parsed[code as usize] {
             Ok(st) => out.push(*st),
-            Err(e) => return Err(cell_error(e.to_string())),
+            Err(message) => return Err(cell_error(message.clone())),
         }
     }
     Ok(out)
+}
+
+/// One status cell by the user's codes, or by [`Status::parse`] without them; the error is
+/// the message for the cell (the caller adds file, line and column).
+pub(super) fn parse_with(
+    value: &str,
+    one_means: Outcome,
+    codes: Option<&StatusCodes>,
+) -> Result<Status, String> {
+    match codes {
+        Some(c) => c.lookup(value).ok_or_else(|| {
+            format!(
+                "\"{}\" is not one of the status codes given (--status-codes {c})",
+                value.trim()
+            )
+        }),
+        None => Status::parse(value, one_means).map_err(|e| {
+            format!(
+                "{e}; other codes can be mapped with --status-codes, e.g. \"1=alive,2=dead,3=cut\""
+            )
+        }),
+    }
 }

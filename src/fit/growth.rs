@@ -2,17 +2,16 @@
 
 use ndarray::Array1;
 
-use super::{common_interval, file_has_column, term_needs, DataOptions, Years};
-use crate::data::{
-    load_remeasurement, DataError, FrameColumn, Outcome, Purpose, RemeasureCounts, RemeasureSpec,
-    Required,
-};
+pub use super::growth_load::{load_growth, GrowthData};
+use super::source::Screening;
+use super::{term_needs, DataOptions, Years};
+use crate::data::RemeasureCounts;
 use crate::model::design::{build_design, DesignOptions};
 use crate::model::file::{
     CoefficientEntry, CovarianceEntry, CovarianceKind, FitInfo, GrowthResponse, ModelFile,
     ModelKind,
 };
-use crate::model::growth::{fit_ols, growth_response, OlsFit};
+use crate::model::growth::{fit_ols, OlsFit};
 use crate::Error;
 
 /// The response of a growth fit.
@@ -66,6 +65,8 @@ pub struct GrowthFit {
     pub non_positive_increment: usize,
     /// Things the user should know.
     pub warnings: Vec<String>,
+    /// What data screening found.
+    pub screening: Screening,
     /// The model file to write with `--out`.
     pub model: ModelFile,
 }
@@ -75,115 +76,27 @@ pub struct GrowthFit {
 /// # Errors
 /// Bad data or terms (exit code 2), rank deficiency (2).
 pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
-    let needs = term_needs(&spec.predictors, &spec.data)?;
-    let mut required = needs.required.clone();
-    let names = &spec.data.names;
-    let years_col = match &spec.years {
-        Years::Column(c) => Some(c.clone()),
-        Years::Default if file_has_column(&spec.data.path, &names.years) => {
-            Some(names.years.clone())
-        }
-        _ => None,
-    };
-    let purpose = match &spec.target {
-        GrowthTarget::Column(c) => {
-            required.push(Required::new(c, "--response-col"));
-            Purpose::Counts
-        }
-        GrowthTarget::Increment(_) => Purpose::Growth,
-    };
-    if let (Some(c), GrowthTarget::Increment(_)) = (&years_col, &spec.target) {
-        required.push(Required::new(c, "the remeasurement interval"));
-    }
-    let load = RemeasureSpec {
-        names: names.clone(),
-        purpose,
-        one_means: Outcome::Alive,
-        required,
-        derived: needs.derived.clone(),
-        use_columns: spec.data.use_columns.clone(),
-        categorical: spec.data.categorical.clone(),
-        units: spec.data.units,
-    };
-    let mut data = load_remeasurement(&spec.data.path, &load)?;
+    let data = load_growth(spec, std::slice::from_ref(&spec.predictors), None)?;
+    fit_growth_loaded(spec, &data, &spec.predictors)
+}
+
+/// Fit `predictors` on growth records already loaded (the fit stage of [`fit_growth`]).
+///
+/// # Errors
+/// Bad terms (exit code 2), rank deficiency (2).
+pub fn fit_growth_loaded(
+    spec: &GrowthSpec,
+    data: &GrowthData,
+    predictors: &str,
+) -> Result<GrowthFit, Error> {
+    let needs = term_needs(predictors, &spec.data)?;
     let mut warnings = data.warnings.clone();
-    let frame = &data.frame;
-    let column = |c: &str| -> Result<Vec<f64>, Error> {
-        match frame.column(c) {
-            Some(FrameColumn::Numeric(v)) => Ok(v.clone()),
-            Some(FrameColumn::Text { first_text, .. }) => {
-                let (line, value) = first_text.clone().unwrap_or((0, String::new()));
-                Err(DataError::Cell {
-                    file: frame.source.clone(),
-                    line,
-                    column: c.to_string(),
-                    message: format!("\"{value}\" is not a number"),
-                }
-                .into())
-            }
-            None => Err(Error::Usage(format!(
-                "{}: column `{c}` was not loaded",
-                frame.source
-            ))),
-        }
-    };
-    let (response, y, keep, period_years, excluded) = match &spec.target {
-        GrowthTarget::Column(c) => {
-            let y = column(c)?;
-            let n = y.len();
-            (GrowthResponse::Column, y, vec![true; n], None, 0)
-        }
-        GrowthTarget::Increment(kind) => {
-            let d1 = column(&names.dbh)?;
-            let d2 = column(&names.dbh2)?;
-            let (years, period, annualize) = match (&spec.years, &years_col) {
-                (Years::Fixed(n), _) => (vec![*n; d1.len()], Some(*n), false),
-                (_, Some(c)) => {
-                    let years = column(c)?;
-                    match common_interval(&years, &frame.source) {
-                        Ok(p) if *kind == GrowthResponse::LnBai => (years, Some(p), false),
-                        Ok(p) => (years, Some(p), true),
-                        Err(_) => {
-                            warnings.push("remeasurement intervals differ; the increment is divided by each record's interval and the model describes one year".to_string());
-                            (years, Some(1.0), true)
-                        }
-                    }
-                }
-                _ if *kind == GrowthResponse::AnnualIncrement => {
-                    return Err(Error::Usage("--response annual_increment needs the remeasurement interval: give --years N or --years-col COL".into()))
-                }
-                _ => (vec![1.0; d1.len()], None, false),
-            };
-            let period = if *kind == GrowthResponse::AnnualIncrement {
-                Some(1.0)
-            } else {
-                period
-            };
-            let mut y = Vec::with_capacity(d1.len());
-            let mut keep = Vec::with_capacity(d1.len());
-            for i in 0..d1.len() {
-                match growth_response(*kind, d1[i], d2[i], years[i], annualize) {
-                    Ok(v) => {
-                        y.push(v);
-                        keep.push(true);
-                    }
-                    Err(_) => keep.push(false),
-                }
-            }
-            let excluded = keep.iter().filter(|k| !**k).count();
-            (*kind, y, keep, period, excluded)
-        }
-    };
-    if excluded > 0 {
-        warnings.push(format!("{excluded} records with a basal-area increment ≤ 0 (second diameter not larger than the first) were left out"));
-        data.frame.retain(&keep);
-    }
-    if period_years.is_none() && response != GrowthResponse::Column {
-        warnings.push("no remeasurement interval was given (--years N or a `years` column), so the model file has no period_years and cannot drive a projection".into());
-    }
+    let response = data.response;
+    let period_years = data.period_years;
+    let excluded = data.non_positive_increment;
     let design = build_design(
         &needs.terms,
-        &data.frame,
+        &data.records.frame,
         &DesignOptions {
             intercept: spec.data.intercept,
             references: spec.data.references.clone(),
@@ -193,7 +106,7 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
     warnings.extend(design.warnings.iter().cloned());
     let ols = fit_ols(
         design.x.view(),
-        Array1::from(y).view(),
+        Array1::from(data.y.clone()).view(),
         &design.names,
         design.intercept,
     )?;
@@ -230,14 +143,16 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
         fit: Some(FitInfo {
             records: Some(ols.records as u64),
             source: Some(spec.data.path.display().to_string()),
-            source_sha256: Some(data.sha256.clone()),
+            source_sha256: Some(data.records.sha256.clone()),
             method: Some("least_squares".to_string()),
-            predictors: Some(spec.predictors.clone()),
+            predictors: Some(predictors.to_string()),
             log_likelihood: Some(ols.log_likelihood),
             aic: Some(ols.aic),
             bic: Some(ols.bic),
             r_squared: Some(ols.r_squared),
             ranges: design.ranges.clone(),
+            flagged_records: data.screening.file_count(),
+            flagged_left_out: data.screening.file_left_out(),
             ..FitInfo::default()
         }),
     };
@@ -245,9 +160,10 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
         ols,
         response,
         period_years: model.period_years,
-        counts: data.counts,
+        counts: data.records.counts,
         non_positive_increment: excluded,
         warnings,
+        screening: data.screening.clone(),
         model,
     })
 }

@@ -7,11 +7,12 @@ use std::collections::HashMap;
 
 use ndarray::Array1;
 
+use super::source::{has_column, load_records, plot_column, Loaded};
 use super::survival::{SurvivalResponse, SurvivalSpec};
 use super::{common_interval, term_needs, Years};
 use crate::data::{
-    load_remeasurement, DataError, DerivedCovariate, FrameColumn, Outcome, Purpose, RemeasureSpec,
-    Remeasurement, Required,
+    DataError, DerivedCovariate, FrameColumn, Outcome, Purpose, RemeasureSpec, Remeasurement,
+    Required,
 };
 use crate::model::file::IntervalKind;
 use crate::model::link::Link;
@@ -51,10 +52,12 @@ pub struct SurvivalData {
     pub outcome: Outcome,
     /// Cluster code per record (`--cluster`).
     pub clusters: Option<Vec<u32>>,
-    /// Stand code per record, when asked for.
+    /// Plot code per record (the `--plot` column, else the stand), when asked for.
     pub stands: Option<Vec<u32>>,
     /// Things the user should know about the data.
     pub warnings: Vec<String>,
+    /// What data screening found.
+    pub screening: super::source::Screening,
 }
 
 /// The name used on the command line for an interval kind.
@@ -78,7 +81,7 @@ pub fn check_interval(spec: &SurvivalSpec) -> Result<(), Error> {
     };
     if spec.interval != IntervalKind::Fixed
         && spec.years == Years::Default
-        && !super::file_has_column(&spec.data.path, &spec.data.names.years)
+        && !has_column(&spec.data, &spec.data.names.years)
     {
         return Err(Error::Usage(format!(
             "--interval {} needs the interval of each record: give --years-col COL (the file has no `{}` column)",
@@ -140,11 +143,11 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         }
     }
     if opts.stands {
-        required.push(Required::new(&spec.data.names.stand, &opts.stands_why));
+        required.push(Required::new(plot_column(&spec.data), &opts.stands_why));
     }
     let years_col = match &spec.years {
         Years::Column(c) => Some(c.clone()),
-        Years::Default if super::file_has_column(&spec.data.path, &spec.data.names.years) => {
+        Years::Default if has_column(&spec.data, &spec.data.names.years) => {
             Some(spec.data.names.years.clone())
         }
         _ => None,
@@ -165,8 +168,9 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         use_columns: spec.data.use_columns.clone(),
         categorical: spec.data.categorical.clone(),
         units: spec.data.units,
+        status_codes: None,
     };
-    let records = load_remeasurement(&spec.data.path, &load)?;
+    let Loaded { records, screening } = load_records(&spec.data, load)?;
     let (period_years, years) = resolve_years(spec, &records)?;
     let y = response(spec, &records)?;
     let num = |c: &Option<String>| -> Result<Option<Array1<f64>>, Error> {
@@ -194,7 +198,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         .map(|c| codes(&records, c))
         .transpose()?;
     let stands = if opts.stands {
-        Some(codes(&records, &spec.data.names.stand)?)
+        Some(codes(&records, plot_column(&spec.data))?)
     } else {
         None
     };
@@ -211,6 +215,7 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         clusters,
         stands,
         warnings,
+        screening,
     })
 }
 
@@ -340,7 +345,7 @@ pub(crate) fn numeric(data: &Remeasurement, column: &str) -> Result<Vec<f64>, Er
 }
 
 /// Integer codes of a column's values (numbers or text), in order of first appearance.
-fn codes(data: &Remeasurement, column: &str) -> Result<Vec<u32>, Error> {
+pub(crate) fn codes(data: &Remeasurement, column: &str) -> Result<Vec<u32>, Error> {
     match data.frame.column(column) {
         Some(FrameColumn::Text { codes, .. }) => {
             if let Some(i) = codes.iter().position(|&c| c == u32::MAX) {

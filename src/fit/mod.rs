@@ -2,11 +2,13 @@
 //! columns the terms need, load the records, build the design matrix, fit, and assemble the
 //! model file. Rendering the results as text or JSON lives in [`summary`].
 
+pub mod candidates;
 pub mod chart;
 pub mod curves;
 pub mod estimate;
 pub mod folds;
 pub mod growth;
+pub mod growth_load;
 pub mod hd_summary;
 pub mod height;
 pub mod ingrowth;
@@ -16,7 +18,10 @@ pub mod judge;
 pub mod load;
 pub mod measured;
 pub mod rank;
+pub mod rank_growth;
+pub mod rank_growth_render;
 pub mod rank_render;
+pub mod source;
 pub mod summary;
 pub mod survival;
 pub mod survival_summary;
@@ -46,6 +51,8 @@ pub struct DataOptions {
     pub intercept: bool,
     /// Units of diameters and per-area values.
     pub units: Units,
+    /// Status codes, the plot column, histories and screening (docs/histories.md).
+    pub input: source::InputOptions,
 }
 
 impl Default for DataOptions {

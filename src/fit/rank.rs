@@ -10,7 +10,7 @@ use super::estimate::{estimate, glm_data, Estimate, Estimator};
 use super::folds::{base_response, cv_log_loss, stand_folds};
 use super::load::{load_survival, LoadOptions, SurvivalData};
 use super::survival::SurvivalSpec;
-use super::{file_has_column, term_needs};
+use super::term_needs;
 use crate::model::diagnostics::{lr_test, require_unit_binary, roc_auc, LrTest};
 use crate::model::glm::FitControl;
 use crate::Error;
@@ -83,6 +83,8 @@ pub struct Ranking {
     pub nested: Vec<NestedTest>,
     /// Things the user should know about the data.
     pub warnings: Vec<String>,
+    /// What data screening found.
+    pub screening: super::source::Screening,
 }
 
 /// Akaike weights of a set of AIC values.
@@ -105,11 +107,12 @@ fn check_candidates(spec: &RankSpec) -> Result<(), Error> {
         ));
     }
     let s = &spec.survival;
+    super::candidates::check_references(&s.data, &spec.candidates)?;
     for (i, c) in spec.candidates.iter().enumerate() {
         let needs = term_needs(c, &s.data)
             .map_err(|e| Error::Usage(format!("candidate {} \"{c}\": {e}", i + 1)))?;
         for r in &needs.required {
-            if !file_has_column(&s.data.path, &r.column) {
+            if !super::source::has_column(&s.data, &r.column) {
                 return Err(Error::Usage(format!(
                     "candidate {} \"{c}\": {} needs a column `{}`, which {} does not have",
                     i + 1,
@@ -142,7 +145,7 @@ pub fn rank(spec: &RankSpec) -> Result<Ranking, Error> {
             predictor_sets: spec.candidates.clone(),
             cluster: None,
             stands: true,
-            stands_why: "cross-validation folds grouped by stand (--stand COL)".into(),
+            stands_why: "cross-validation folds grouped by plot (--plot or --stand COL)".into(),
         },
     )?;
     let stands = data.stands.as_deref().unwrap_or(&[]);
@@ -161,7 +164,13 @@ fn rank_loaded(
     let fits: Vec<Estimate> = spec
         .candidates
         .par_iter()
-        .map(|c| estimate(s, data, c, Estimator::MaximumLikelihood, &spec.control))
+        .map(|c| {
+            let sc = SurvivalSpec {
+                data: super::candidates::for_candidate(&s.data, c),
+                ..s.clone()
+            };
+            estimate(&sc, data, c, Estimator::MaximumLikelihood, &spec.control)
+        })
         .collect::<Result<_, _>>()?;
     let first = &fits[0];
     let response = base_response(&glm_data(
@@ -245,6 +254,7 @@ fn rank_loaded(
         rows,
         nested,
         warnings: data.warnings.clone(),
+        screening: data.screening.clone(),
     })
 }
 

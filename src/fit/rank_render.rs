@@ -15,7 +15,7 @@ fn num(v: Option<f64>, digits: usize) -> String {
 /// A readable table, smallest AIC first, followed by the nested-pair tests.
 pub fn rank_text(r: &Ranking) -> String {
     let mut out = format!(
-        "stemcast rank — {} candidates on the same {} records in {} stands; {}-fold cross-validation grouped by stand (seed {})\n\n",
+        "stemcast rank — {} candidates on the same {} records in {} plots; {}-fold cross-validation grouped by plot (seed {})\n\n",
         r.rows.len(),
         r.records,
         r.stands,

@@ -142,6 +142,7 @@ pub fn growth_json(fit: &GrowthFit) -> Value {
         "coefficients": coefficients, "covariance": o.covariance,
         "residual_sd": o.residual_sd, "r_squared": o.r_squared, "adj_r_squared": o.adj_r_squared,
         "df_residual": o.df_residual, "log_likelihood": o.log_likelihood, "aic": o.aic, "bic": o.bic,
+        "screening": fit.screening.json(),
         "warnings": fit.warnings,
     })
 }

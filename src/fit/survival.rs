@@ -113,6 +113,8 @@ pub struct SurvivalFit {
     pub counts: RemeasureCounts,
     /// Things the user should know.
     pub warnings: Vec<String>,
+    /// What data screening found.
+    pub screening: super::source::Screening,
     /// The model file to write with `--out`.
     pub model: ModelFile,
 }
@@ -153,7 +155,7 @@ pub fn check_options(spec: &SurvivalSpec, opts: &FitOptions) -> Result<(), Error
     }
     if let Some(b) = &opts.dbh_classes {
         super::check_classes(b)?;
-        if !super::file_has_column(&spec.data.path, &spec.data.names.dbh) {
+        if !super::source::has_column(&spec.data, &spec.data.names.dbh) {
             return Err(Error::Usage(format!(
                 "--dbh-classes: {} has no diameter column `{}` (name it with --dbh COL)",
                 spec.data.path.display(),
@@ -227,6 +229,7 @@ pub fn fit_loaded(
         interval: spec.interval,
         period_years: data.period_years,
         counts: data.records.counts,
+        screening: data.screening.clone(),
         warnings,
         model,
     })
@@ -290,6 +293,8 @@ fn model_file(
             iterations: Some(glm.iterations as u64),
             converged: Some(glm.converged),
             ranges: design.ranges.clone(),
+            flagged_records: data.screening.file_count(),
+            flagged_left_out: data.screening.file_left_out(),
         }),
     }
 }

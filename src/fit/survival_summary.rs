@@ -272,6 +272,7 @@ pub fn survival_json(fit: &SurvivalFit) -> Value {
         "lr_test_vs_null": lr, "calibration": cal,
         "unavailable": {"auc": auc_why, "hosmer_lemeshow": hl_why, "lr_test_vs_null": lr_why,
                         "calibration": cal_why},
+        "screening": fit.screening.json(),
         "warnings": fit.warnings,
     })
 }

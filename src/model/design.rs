@@ -75,6 +75,14 @@ pub fn build_design(
                 levels.join(", ")
             )))
             }
+            _ if !terms
+                .iter()
+                .any(|t| t.factors.iter().any(|f| f.var() == var)) =>
+            {
+                return Err(ModelError::Invalid(format!(
+                    "--reference {var}={level}: no predictor term uses `{var}`"
+                )))
+            }
             _ => {
                 return Err(ModelError::Invalid(format!(
                     "--reference {var}={level}: `{var}` is not a categorical column of {}",

@@ -135,6 +135,12 @@ pub struct FitInfo {
     /// Covariate ranges of the fitting data, for extrapolation warnings.
     #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
     pub ranges: BTreeMap<String, [f64; 2]>,
+    /// Records flagged by data screening (docs/histories.md, "Screening").
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flagged_records: Option<u64>,
+    /// Whether the flagged records were left out of the fit (`--drop-flagged`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flagged_left_out: Option<bool>,
 }
 
 /// The model file exactly as stored (`docs/model-files.md#keys`).

@@ -23,6 +23,7 @@ fn data() -> DataOptions {
         references,
         intercept: true,
         units: Units::Metric,
+        input: Default::default(),
     }
 }
 

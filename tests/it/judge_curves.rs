@@ -38,6 +38,7 @@ fn curves_follow_the_coefficients_per_level_with_other_covariates_at_their_mean(
             references: BTreeMap::new(),
             intercept: true,
             units: Units::Metric,
+            input: Default::default(),
         },
         predictors: "dbh, grp, bal".into(),
         response: SurvivalResponse::Status {

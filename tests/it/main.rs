@@ -37,6 +37,7 @@ mod glm_robust;
 mod hd_height;
 mod hd_height_cli;
 mod hd_volume;
+mod histories;
 mod ingrowth_cli;
 mod ingrowth_model_file;
 mod ingrowth_own;

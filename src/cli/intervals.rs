@@ -1,0 +1,110 @@
+//! `stemcast intervals`: pair a measurement history into the derived interval table (one
+//! row per tree and interval, with fate and derived covariates) for inspection or reuse.
+
+use std::path::PathBuf;
+
+use clap::Args as ClapArgs;
+use stemcast::atomic::write_atomic;
+use stemcast::data::{derive_intervals, frame_csv, read_history, ColumnNames, HistorySpec};
+use stemcast::Error;
+
+use super::fit_args::UnitsArg;
+use super::input_args::{history_options, status_codes, HistoryArgs};
+
+/// `intervals` options.
+#[derive(Debug, ClapArgs)]
+#[command(after_long_help = INTERVALS_HELP)]
+pub struct Args {
+    /// History CSV: one row per tree per measurement.
+    history: PathBuf,
+    /// Write the interval table here (CSV).
+    #[arg(long, value_name = "FILE")]
+    out: PathBuf,
+    /// Also write the ingrowth of every plot and period here (CSV).
+    #[arg(long, value_name = "FILE")]
+    ingrowth: Option<PathBuf>,
+    /// Plot column.
+    #[arg(long, value_name = "COL", default_value = "stand")]
+    stand: String,
+    /// Diameter column.
+    #[arg(long, value_name = "COL", default_value = "dbh")]
+    dbh: String,
+    /// Status column.
+    #[arg(long, value_name = "COL", default_value = "status")]
+    status: String,
+    /// Expansion-factor column (stems per hectare, or per acre with --units imperial).
+    #[arg(long, value_name = "COL", default_value = "expansion")]
+    expansion: String,
+    /// Treat a numeric column as categorical. Repeatable.
+    #[arg(long, value_name = "COL")]
+    categorical: Vec<String>,
+    /// Units of diameters and per-area values.
+    #[arg(long, value_enum, default_value = "metric")]
+    units: UnitsArg,
+    #[command(flatten)]
+    reading: HistoryArgs,
+}
+
+const INTERVALS_HELP: &str =
+    "Columns of the interval table: the plot and tree, occasion (plot@t1, the stand of the
+derived covariates), t1, t2, years (= t2 - t1), the diameter at t1 (under the history's name),
+dbh2 (at t2, empty unless alive), fate (alive, dead, cut or missing), every other history
+column at t1, and the derived covariates ba, bal, qmd, rel_dbh, stems per plot and
+measurement (when the history has an expansion column). Pairing rules: docs/histories.md.";
+
+/// Run `intervals`.
+pub fn run(a: &Args) -> Result<(), Error> {
+    let options = history_options(&a.reading, true)?.unwrap_or_default();
+    let spec = HistorySpec {
+        names: ColumnNames {
+            stand: a.stand.clone(),
+            tree: a.reading.tree.clone(),
+            dbh: a.dbh.clone(),
+            status: a.status.clone(),
+            expansion: a.expansion.clone(),
+            ..ColumnNames::default()
+        },
+        time: options.time,
+        status_codes: status_codes(&a.reading)?,
+        missing_as: options.missing_as,
+        threshold_dbh: options.threshold_dbh,
+        categorical: a.categorical.clone(),
+        units: a.units.into(),
+    };
+    let history = read_history(&a.history, &spec)?;
+    let pairing = history.pair()?;
+    let (records, columns) = derive_intervals(&history, &pairing)?;
+    let ingrowth_csv = a.ingrowth.as_ref().map(|_| pairing.ingrowth.periods_csv());
+    write_atomic(&a.out, frame_csv(&records.frame, &columns).as_bytes())?;
+    if let (Some(path), Some(csv)) = (&a.ingrowth, ingrowth_csv) {
+        write_atomic(path, csv.as_bytes())?;
+    }
+    let c = &pairing.counts;
+    println!(
+        "{}: {} rows, {} plots, {} measurements, {} trees",
+        a.history.display(),
+        c.rows,
+        c.plots,
+        c.occasions,
+        c.trees
+    );
+    println!(
+        "  {} intervals: {} alive, {} dead ({} of them missing, counted dead), {} cut, {} missing (dropped from fits)",
+        c.intervals, c.alive, c.dead, c.missing_dead, c.cut, c.missing_dropped
+    );
+    println!(
+        "  new trees: {} ingrowth (at or above {}), {} below it, {} first recorded dead or cut",
+        c.ingrowth, pairing.ingrowth.threshold_dbh, c.new_below_threshold, c.new_not_alive
+    );
+    if c.ignored_rows > 0 || c.reappeared > 0 {
+        println!(
+            "  {} dead or cut rows of trees not alive at the previous measurement ignored; {} trees alive again after a recorded death",
+            c.ignored_rows, c.reappeared
+        );
+    }
+    println!("  wrote {}", a.out.display());
+    if let Some(p) = &a.ingrowth {
+        println!("  wrote {}", p.display());
+    }
+    Ok(())
+}
