@@ -66,6 +66,7 @@ impl Default for DataOptions {
             references: BTreeMap::new(),
             intercept: true,
             units: Units::default(),
+            input: Default::default(),
         }
     }
 }

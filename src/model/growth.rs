@@ -8,6 +8,17 @@ use super::linalg::least_squares_qr;
 use super::ModelError;
 use crate::model::file::GrowthResponse;
 
+/// The additive log-scale term of the lognormal back-transform (Baskerville 1972): the mean of
+/// exp(ε) for ε ~ N(0, σ²) is exp(σ²/2), so an expected increment from a model of ln(increment)
+/// adds σ²/2 to the linear predictor (docs/maths.md#baskerville-correction).
+///
+/// # Formula
+/// c = σ² / 2.
+#[inline]
+pub fn baskerville_log_term(sigma: f64) -> f64 {
+    0.5 * sigma * sigma
+}
+
 /// A fitted OLS regression. Holds no data.
 #[derive(Debug, Clone, PartialEq)]
 pub struct OlsFit {

@@ -157,6 +157,15 @@ pub fn variance(mu: f64) -> f64 {
     mu * (1.0 - mu)
 }
 
+/// The IRLS working weight of a binomial GLM record (docs/maths.md#irls).
+///
+/// # Formula
+/// w = a · (dμ/dη)² / V(μ), with prior weight a and V(μ) = μ(1 − μ).
+#[inline]
+pub fn working_weight(prior: f64, mu: f64, dmu_deta: f64) -> f64 {
+    prior * dmu_deta * dmu_deta / variance(mu)
+}
+
 /// The logistic function 1 / (1 + e^−x), without overflow for large |x|.
 #[inline]
 fn logistic(x: f64) -> f64 {

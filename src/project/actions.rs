@@ -21,10 +21,7 @@ use crate::scenario::{SetValue, ThinFrom, ThinTarget, TreeList};
 /// running sums neither removes an extra record nor leaves a record that meets the target.
 const TARGET_RTOL: f64 = 1e-12;
 
-/// Reineke's exponent (metric SDI = N·(QMD/25.4)^1.605).
-const REINEKE_EXPONENT: f64 = 1.605;
-/// Reference QMD of the metric SDI, cm.
-const REINEKE_REFERENCE_CM: f64 = 25.4;
+use crate::data::{Units, REINEKE_EXPONENT};
 
 /// Stems and basal area taken out by one action.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
@@ -160,7 +157,7 @@ fn sdi(stems: f64, sum_sq: f64) -> f64 {
     if stems <= 0.0 {
         return 0.0;
     }
-    stems * ((sum_sq / stems).sqrt() / REINEKE_REFERENCE_CM).powf(REINEKE_EXPONENT)
+    crate::data::reineke_sdi(stems, (sum_sq / stems).sqrt(), Units::Metric)
 }
 
 /// Let the smallest trees die until the stand's SDI is at most `max_sdi`: whole records, or
@@ -209,7 +206,11 @@ pub(crate) fn density_limit(
 fn boundary_weight(n: f64, s: f64, e: f64, d: f64, max_sdi: f64) -> f64 {
     let b = REINEKE_EXPONENT / 2.0;
     let a = 1.0 - b;
-    let goal = (max_sdi * REINEKE_REFERENCE_CM.powf(REINEKE_EXPONENT)).ln();
+    let goal = (max_sdi
+        * Units::Metric
+            .sdi_reference_diameter()
+            .powf(REINEKE_EXPONENT))
+    .ln();
     let d2 = d * d;
     // φ(w) = a·ln(N − w) + b·ln(S − w·d²) − goal, decreasing in w; φ(0) > 0 > φ(e).
     let phi = |w: f64| a * (n - w).ln() + b * (s - w * d2).ln() - goal;

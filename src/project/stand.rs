@@ -21,7 +21,7 @@ impl Totals {
     /// Reineke's stand density index, metric (reference 25.4 cm); 0 without stems.
     pub fn sdi(&self) -> f64 {
         if self.stems > 0.0 {
-            self.stems * (self.qmd / 25.4).powf(1.605)
+            crate::data::reineke_sdi(self.stems, self.qmd, crate::data::Units::Metric)
         } else {
             0.0
         }

@@ -260,7 +260,7 @@ fn grow(stand: &mut Stand, ctx: &StepContext, totals: &Totals, k: u64) {
         }
         None => {
             let mean = match g.response {
-                GrowthResponse::LnBai => 0.5 * g.sigma * g.sigma,
+                GrowthResponse::LnBai => crate::model::growth::baskerville_log_term(g.sigma),
                 _ => 0.0,
             };
             tmp.fill(mean);

@@ -3,7 +3,7 @@
 //! fixed-size kernels for small designs.
 
 use super::{unit_deviance, Pass, Problem};
-use crate::model::link::{variance, Link, MU_EPS};
+use crate::model::link::{working_weight, Link, MU_EPS};
 use crate::model::separation::EXTREME_MU;
 
 /// Sums deviance contributions. Unit-weight 0/1 rows contribute −2 ln q, q the fitted
@@ -238,7 +238,7 @@ impl Problem<'_> {
                         continue;
                     }
                     let (mu, d) = self.link.inverse_and_derivative(eta_lin + off);
-                    let w = wt * d * d / variance(mu);
+                    let w = working_weight(wt, mu, d);
                     w_buf[r] = w;
                     wz_buf[r] = w * (eta_lin + (y - mu) / d);
                     extreme |= !(EXTREME_MU..=1.0 - EXTREME_MU).contains(&mu);
@@ -272,7 +272,7 @@ impl Problem<'_> {
         let mu = (wt * y + 0.5) / (wt + 1.0);
         let eta = self.link.link(mu);
         let d = self.link.mu_eta(eta);
-        let w = wt * d * d / variance(mu);
+        let w = working_weight(wt, mu, d);
         (w, w * (eta + (y - mu) / d))
     }
 }
