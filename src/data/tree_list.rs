@@ -82,6 +82,25 @@ pub(crate) enum Constant {
     Level(String),
 }
 
+impl TreeList {
+    /// Convert diameters and expansion factors read in `units` to the projector's metric units
+    /// (cm and stems per hectare; docs/data.md#units). Nothing changes for metric input.
+    ///
+    /// # Formula
+    /// d_cm = 2.54 · d_in; e_ha = e_ac / 0.40468564224 (hectares per acre, exact).
+    pub fn into_metric(mut self, units: super::Units) -> TreeList {
+        if units == super::Units::Imperial {
+            for d in &mut self.dbh_cm {
+                *d *= super::CM_PER_INCH;
+            }
+            for e in &mut self.stems_per_ha {
+                *e /= super::HA_PER_ACRE;
+            }
+        }
+        self
+    }
+}
+
 impl TryFrom<TreeRecords> for TreeList {
     type Error = DataError;
 

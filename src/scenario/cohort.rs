@@ -7,7 +7,7 @@ use std::path::Path;
 use super::load::InputFile;
 use super::schema::{DbhDistribution, ScenarioFile};
 use super::ScenarioError;
-use crate::data::{read_single_stand, sha256_hex, TreeList, TreeListSpec};
+use crate::data::{read_single_stand, sha256_hex, ColumnNames, TreeList, TreeListSpec, Units};
 
 /// Diameters at the quantiles `(i − ½)/n`, i = 1..n, of `dist`, in increasing order.
 ///
@@ -122,17 +122,47 @@ pub(crate) fn trees_of(
         let shown = path.display().to_string();
         let bytes = std::fs::read(&path)
             .map_err(|e| err("cohort.trees", format!("{shown} cannot be read: {e}")))?;
-        let spec = TreeListSpec {
-            categorical: categorical.to_vec(),
-            ..TreeListSpec::default()
+        let units = match &c.units {
+            None => Units::Metric,
+            Some(u) => u
+                .parse::<Units>()
+                .map_err(|e| err("cohort.units", e.to_string()))?,
         };
-        let list = TreeList::try_from(read_single_stand(&path, &spec)?)?;
+        let mut names = ColumnNames::default();
+        if let Some(cols) = &c.columns {
+            for (name, given) in [
+                (&mut names.stand, &cols.stand),
+                (&mut names.tree, &cols.tree),
+                (&mut names.dbh, &cols.dbh),
+                (&mut names.expansion, &cols.expansion),
+            ] {
+                if let Some(g) = given {
+                    *name = g.clone();
+                }
+            }
+        }
+        let spec = TreeListSpec {
+            names,
+            categorical: categorical.to_vec(),
+        };
+        let list = TreeList::try_from(read_single_stand(&path, &spec)?)?.into_metric(units);
         inputs.push(InputFile {
             role: "trees".into(),
             path,
             sha256: sha256_hex(&bytes),
         });
         return Ok(list);
+    }
+    for (key, present) in [
+        ("units", c.units.is_some()),
+        ("columns", c.columns.is_some()),
+    ] {
+        if present {
+            return Err(err(
+                &format!("cohort.{key}"),
+                "describes a tree list (`trees`); a generated cohort is metric".into(),
+            ));
+        }
     }
     let stems = c
         .stems_per_ha

@@ -159,6 +159,27 @@ pub struct CohortSection {
     /// A tree list CSV instead of a generated cohort.
     #[serde(default)]
     pub trees: Option<String>,
+    /// Units of the tree list's diameters and expansion factors: `metric` (cm, stems/ha, the
+    /// default) or `imperial` (inches, trees per acre); converted to metric on reading.
+    #[serde(default)]
+    pub units: Option<String>,
+    /// The tree list's column names where they differ from `stand`, `tree`, `dbh`, `expansion`.
+    #[serde(default)]
+    pub columns: Option<TreeColumns>,
+}
+
+/// `[cohort.columns]`: the names of a tree list's role columns.
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TreeColumns {
+    /// The stand (plot) id column.
+    pub stand: Option<String>,
+    /// The tree id column.
+    pub tree: Option<String>,
+    /// The diameter column.
+    pub dbh: Option<String>,
+    /// The expansion-factor column (stems per hectare, or trees per acre with imperial units).
+    pub expansion: Option<String>,
 }
 
 /// A DBH distribution (cm) for a generated cohort.

@@ -38,6 +38,7 @@ mod hd_height;
 mod hd_height_cli;
 mod hd_volume;
 mod histories;
+mod imperial_trees;
 mod ingrowth_cli;
 mod ingrowth_model_file;
 mod ingrowth_own;
