@@ -13,6 +13,7 @@ mod input_args;
 mod intervals;
 mod project;
 mod rank;
+mod run_args;
 
 use clap::{Parser, Subcommand};
 use stemcast::Error;

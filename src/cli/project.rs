@@ -5,7 +5,7 @@ use std::io::IsTerminal;
 use std::path::PathBuf;
 
 use indicatif::{ProgressBar, ProgressStyle};
-use stemcast::project::{run_scenario_with_progress, RunOptions};
+use stemcast::project::run_scenario_with_progress;
 use stemcast::scenario::Scenario;
 
 /// Project one stand forward by Monte Carlo (or its expected trajectory with `--expected`).
@@ -16,18 +16,9 @@ pub struct Args {
     /// Output folder (default: `<scenario file stem>-projection` in the current folder).
     #[arg(long, value_name = "DIR")]
     pub out: Option<PathBuf>,
-    /// Monte Carlo replicates (overrides the scenario).
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
-    pub replicates: Option<u64>,
-    /// Seed of the random draws (overrides the scenario).
-    #[arg(long, value_name = "S")]
-    pub seed: Option<u64>,
-    /// Run the deterministic expected-value driver instead of Monte Carlo.
-    #[arg(long)]
-    pub expected: bool,
-    /// Worker threads (default: all cores); results do not depend on it.
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
-    pub threads: Option<u64>,
+    /// Replicates, seed, driver and threads.
+    #[command(flatten)]
+    pub run: super::run_args::RunArgs,
 }
 
 /// Run `stemcast project`.
@@ -36,18 +27,13 @@ pub struct Args {
 /// Scenario, model and tree-list errors (exit 2), write failures (exit 1).
 pub fn run(args: &Args) -> Result<(), stemcast::Error> {
     let scenario = Scenario::read(&args.scenario)?;
-    let options = RunOptions {
-        expected: args.expected,
-        replicates: args.replicates.map(|n| n as usize),
-        seed: args.seed,
-        threads: args.threads.map(|n| n as usize),
-    };
-    let total = if args.expected {
+    let options = args.run.options();
+    let total = if args.run.expected {
         1
     } else {
         options.replicates.unwrap_or(scenario.replicates)
     };
-    let bar = (std::io::stderr().is_terminal() && !args.expected).then(|| {
+    let bar = (std::io::stderr().is_terminal() && !args.run.expected).then(|| {
         let b = ProgressBar::new(total as u64);
         if let Ok(style) =
             ProgressStyle::with_template("{bar:40} {pos}/{len} replicates, {eta} left")
