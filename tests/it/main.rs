@@ -63,4 +63,5 @@ mod rank_cli;
 mod report_browser;
 mod scenario_cohort;
 mod scenario_errors;
+mod species_actions;
 mod terms_design;
