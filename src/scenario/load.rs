@@ -343,7 +343,7 @@ impl Scenario {
         {
             categorical.push(species_column.clone());
         }
-        let trees = cohort::trees_of(&raw, base, file, &categorical, &mut inputs)?;
+        let trees = cohort::trees_of(&raw, base, file, &categorical, &species_column, &mut inputs)?;
         let binding = Binding {
             attributes: raw.cohort.attributes.clone(),
             area_ha: raw.cohort.area_ha,

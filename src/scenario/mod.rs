@@ -4,6 +4,7 @@
 mod actions;
 mod bind;
 mod cohort;
+mod components;
 mod load;
 pub mod schema;
 mod species;

@@ -177,6 +177,23 @@ pub struct CohortSection {
     /// A tree list CSV instead of a generated cohort.
     #[serde(default)]
     pub trees: Option<String>,
+    /// `[[cohort.components]]`: a generated cohort of several species, one part each.
+    #[serde(default)]
+    pub components: Vec<CohortComponent>,
+}
+
+/// One `[[cohort.components]]` entry: the trees of one species in a generated mixed cohort.
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CohortComponent {
+    /// Species code, given to every tree of the component in the species column.
+    pub species: String,
+    /// Stems per hectare of this component.
+    pub stems_per_ha: f64,
+    /// Number of records of this component.
+    pub records: i64,
+    /// DBH distribution of this component.
+    pub dbh: DbhDistribution,
 }
 
 /// A DBH distribution (cm) for a generated cohort.
