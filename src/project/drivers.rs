@@ -233,7 +233,9 @@ impl<'a> Engine<'a> {
                         ActionKind::Thin { from, target, .. } => {
                             actions::thin(stand, *from, *target, &self.ranks, whole_records)
                         }
-                        ActionKind::Remove(sp) => species_actions::remove(stand, &sp.records),
+                        ActionKind::Remove(sp) => {
+                            species_actions::remove(stand, &sp.records, whole_records)
+                        }
                         _ => Removal::default(),
                     };
                     if r.stems == 0.0 {

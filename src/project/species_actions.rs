@@ -47,8 +47,9 @@ pub(crate) fn thin_only(
     removed
 }
 
-/// Remove every record flagged in `only` (indexed by record), whatever the driver.
-pub(crate) fn remove(stand: &mut Stand, only: &[bool]) -> Removal {
+/// Remove every record flagged in `only` (indexed by record), whatever the driver. As in a
+/// thinning, whole records leave the stand and exact weights stay as records of no stems.
+pub(crate) fn remove(stand: &mut Stand, only: &[bool], whole_records: bool) -> Removal {
     let mut removed = Removal::default();
     for i in 0..stand.len() {
         if only[stand.tree[i] as usize] {
@@ -58,7 +59,7 @@ pub(crate) fn remove(stand: &mut Stand, only: &[bool]) -> Removal {
             stand.stems[i] = 0.0;
         }
     }
-    if removed.stems > 0.0 {
+    if whole_records && removed.stems > 0.0 {
         stand.compact();
     }
     removed

@@ -128,6 +128,18 @@ fn remove_takes_every_tree_of_the_listed_species() {
             1e-12,
             0.0
         ));
+        if expected_driver {
+            // Exact weights: the RA records stay, with no stems, as after a thinning.
+            let got = stems0(&r);
+            for (id, e) in got {
+                let want = if ["2", "4", "6"].contains(&id.as_str()) {
+                    0.0
+                } else {
+                    100.0
+                };
+                assert_eq!(e, want, "tree {id}");
+            }
+        }
     }
 }
 
