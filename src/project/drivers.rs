@@ -6,6 +6,7 @@ use super::harvest::HarvestPlan;
 use super::params::CovarianceFactor;
 use super::result::{HarvestAction, TreeRow};
 use super::rng::{self, Purpose};
+use super::species_actions;
 use super::stand::{Initial, Stand};
 use super::step::{observe_ranges, sub_step, GrowthRule, Mortality, StepContext, SurvivalRule};
 use super::summary::Trace;
@@ -215,8 +216,28 @@ impl<'a> Engine<'a> {
             .filter(|(_, a)| a.at == at)
         {
             match &a.kind {
-                ActionKind::Thin { from, target } => {
-                    let r = actions::thin(stand, *from, *target, &self.ranks, whole_records);
+                ActionKind::Thin { .. } | ActionKind::Remove(_) => {
+                    let r = match &a.kind {
+                        ActionKind::Thin {
+                            from,
+                            target,
+                            species: Some(sp),
+                        } => species_actions::thin_only(
+                            stand,
+                            &sp.records,
+                            *from,
+                            *target,
+                            &self.ranks,
+                            whole_records,
+                        ),
+                        ActionKind::Thin { from, target, .. } => {
+                            actions::thin(stand, *from, *target, &self.ranks, whole_records)
+                        }
+                        ActionKind::Remove(sp) => {
+                            species_actions::remove(stand, &sp.records, whole_records)
+                        }
+                        _ => Removal::default(),
+                    };
                     if r.stems == 0.0 {
                         trace.idle_thinnings[i] += 1;
                     }

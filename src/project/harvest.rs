@@ -26,10 +26,9 @@ impl HarvestPlan {
         let mut events = Vec::new();
         for at in 0..=sub_steps {
             let year = at as f64 * s.sub_step_years;
-            if s.actions
-                .iter()
-                .any(|a| a.at == at && matches!(a.kind, ActionKind::Thin { .. }))
-            {
+            if s.actions.iter().any(|a| {
+                a.at == at && matches!(a.kind, ActionKind::Thin { .. } | ActionKind::Remove(_))
+            }) {
                 events.push((at, year, HarvestAction::Thin));
             }
             if first_limit.is_some_and(|f| at >= f) {

@@ -13,6 +13,7 @@ mod params;
 mod plan;
 mod result;
 mod rng;
+mod species_actions;
 mod stand;
 mod step;
 mod summary;

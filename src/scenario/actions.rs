@@ -4,6 +4,7 @@
 //! to codes.
 
 use super::schema::{ActionEntry, ThinEntry, ThinFrom};
+use super::species::{self, SpeciesSet};
 use super::ScenarioError;
 use crate::data::{AttributeValues, TreeList};
 use crate::model::stored::ModelCommon;
@@ -27,18 +28,27 @@ impl Action {
     /// A one-line description (`year 20: thin from below to 700 stems/ha`).
     pub fn describe(&self) -> String {
         let what = match &self.kind {
-            ActionKind::Thin { from, target } => {
+            ActionKind::Thin {
+                from,
+                target,
+                species,
+            } => {
+                let only = species
+                    .as_ref()
+                    .map_or(String::new(), |s| format!(" (species {} only)", s.joined()));
                 let from = match from {
                     ThinFrom::Below => "thin from below",
                     ThinFrom::Above => "thin from above",
                     ThinFrom::Proportional => "thin proportionally",
                 };
-                match target {
+                let what = match target {
                     ThinTarget::StemsPerHa(n) => format!("{from} to {n} stems/ha"),
                     ThinTarget::BasalAreaM2Ha(g) => format!("{from} to {g} m²/ha basal area"),
                     ThinTarget::RemoveFraction(f) => format!("{from}, removing {f} of the stems"),
-                }
+                };
+                format!("{what}{only}")
             }
+            ActionKind::Remove(s) => format!("remove every tree of species {}", s.joined()),
             ActionKind::Set(_) => format!("set {} for every tree", self.assignments.join(", ")),
             ActionKind::DensityLimit { max_sdi } => format!(
                 "density limit SDI {max_sdi}, in force from then on: the smallest trees die at the end of every sub-step until the stand is at the limit"
@@ -57,7 +67,11 @@ pub enum ActionKind {
         from: ThinFrom,
         /// What the thinning aims at.
         target: ThinTarget,
+        /// When given, only these species are thinned and the target counts them alone.
+        species: Option<SpeciesSet>,
     },
+    /// Remove every tree of these species.
+    Remove(SpeciesSet),
     /// Give every tree these attribute values.
     Set(Vec<SetValue>),
     /// From this year on, at the end of every sub-step, the smallest trees die until
@@ -99,8 +113,11 @@ pub enum SetValue {
 }
 
 /// Validate the actions against the trees and models; extends `trees`' level lists.
+/// `species_column` names the column species-restricted actions read.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn validate(
     entries: &[ActionEntry],
+    species_column: &str,
     trees: &mut TreeList,
     models: &[&ModelCommon],
     horizon_years: f64,
@@ -142,12 +159,24 @@ pub(crate) fn validate(
             .flatten()
             .map(|(name, value)| format!("{name} = {value}"))
             .collect();
-        let kind = match (&a.thin, &a.set, &a.density_limit) {
-            (Some(t), None, None) => ActionKind::Thin {
+        let species_of = |k: String, names: &[String], trees: &TreeList| {
+            species::resolve(trees, species_column, names).map_err(|m| err(k, m))
+        };
+        let kind = match (&a.thin, &a.set, &a.density_limit, &a.remove) {
+            (Some(t), None, None, None) => ActionKind::Thin {
                 from: t.from,
                 target: thin_target(t).map_err(|(k, m)| err(format!("{key}.thin{k}"), m))?,
+                species: match &t.species {
+                    Some(names) => Some(species_of(format!("{key}.thin.species"), names, trees)?),
+                    None => None,
+                },
             },
-            (None, Some(set), None) => {
+            (None, None, None, Some(r)) => ActionKind::Remove(species_of(
+                format!("{key}.remove.species"),
+                &r.species,
+                trees,
+            )?),
+            (None, Some(set), None, None) => {
                 let mut values = Vec::with_capacity(set.len());
                 for (name, value) in set {
                     let k = format!("{key}.set.{name}");
@@ -155,7 +184,7 @@ pub(crate) fn validate(
                 }
                 ActionKind::Set(values)
             }
-            (None, None, Some(limit)) => {
+            (None, None, Some(limit), None) => {
                 if !(limit.max_sdi > 0.0 && limit.max_sdi.is_finite()) {
                     return Err(err(
                         format!("{key}.density_limit.max_sdi"),
@@ -169,7 +198,8 @@ pub(crate) fn validate(
             _ => {
                 return Err(err(
                     key,
-                    "give exactly one of `thin`, `set` or `density_limit` per action".into(),
+                    "give exactly one of `thin`, `remove`, `set` or `density_limit` per action"
+                        .into(),
                 ))
             }
         };

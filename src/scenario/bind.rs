@@ -22,6 +22,8 @@ pub(crate) struct Binding {
     pub area_ha: Option<f64>,
     /// `[[actions]]` as written.
     pub actions: Vec<ActionEntry>,
+    /// `[models] species_column` (default `species`).
+    pub species_column: String,
 }
 
 /// Trees with their validated actions and compiled models.
@@ -91,6 +93,7 @@ impl Binding {
         let commons = [models[0].1, models[1].1];
         let actions = actions::validate(
             &self.actions,
+            &self.species_column,
             &mut trees,
             &commons,
             horizon,

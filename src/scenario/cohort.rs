@@ -96,6 +96,7 @@ pub(crate) fn trees_of(
     base: &Path,
     file: &str,
     categorical: &[String],
+    species_column: &str,
     inputs: &mut Vec<InputFile>,
 ) -> Result<TreeList, ScenarioError> {
     let err = |key: &str, message: String| ScenarioError::Key {
@@ -109,6 +110,7 @@ pub(crate) fn trees_of(
             ("stems_per_ha", c.stems_per_ha.is_some()),
             ("records", c.records.is_some()),
             ("dbh", c.dbh.is_some()),
+            ("components", !c.components.is_empty()),
         ] {
             if present {
                 return Err(err(
@@ -163,6 +165,27 @@ pub(crate) fn trees_of(
                 "describes a tree list (`trees`); a generated cohort is metric".into(),
             ));
         }
+    }
+    if !c.components.is_empty() {
+        for (key, present) in [
+            ("stems_per_ha", c.stems_per_ha.is_some()),
+            ("records", c.records.is_some()),
+            ("dbh", c.dbh.is_some()),
+            (species_column, c.attributes.contains_key(species_column)),
+        ] {
+            if present {
+                let key = if key == species_column {
+                    format!("cohort.attributes.{key}")
+                } else {
+                    format!("cohort.{key}")
+                };
+                return Err(err(
+                    &key,
+                    "with [[cohort.components]], each component gives its own species, stems_per_ha, records and dbh".into(),
+                ));
+            }
+        }
+        return super::components::mixed_cohort(&c.components, species_column, file);
     }
     let stems = c
         .stems_per_ha

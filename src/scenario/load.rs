@@ -326,15 +326,29 @@ impl Scenario {
                 }
             }
         }
-        let categorical: Vec<String> = [&survival.common, &growth.common]
+        let species_column = raw
+            .models
+            .species_column
+            .clone()
+            .unwrap_or_else(|| super::DEFAULT_SPECIES_COLUMN.to_string());
+        let mut categorical: Vec<String> = [&survival.common, &growth.common]
             .iter()
             .flat_map(|c| c.categorical.keys().cloned())
             .collect();
-        let trees = cohort::trees_of(&raw, base, file, &categorical, &mut inputs)?;
+        // Species codes are text even when they look like numbers.
+        if raw
+            .actions
+            .iter()
+            .any(|a| a.remove.is_some() || a.thin.as_ref().is_some_and(|t| t.species.is_some()))
+        {
+            categorical.push(species_column.clone());
+        }
+        let trees = cohort::trees_of(&raw, base, file, &categorical, &species_column, &mut inputs)?;
         let binding = Binding {
             attributes: raw.cohort.attributes.clone(),
             area_ha: raw.cohort.area_ha,
             actions: raw.actions.clone(),
+            species_column,
         };
         let bound = binding.bind(
             trees,

@@ -4,14 +4,17 @@
 mod actions;
 mod bind;
 mod cohort;
+mod components;
 mod load;
 pub mod schema;
+mod species;
 
 pub use crate::data::{Attribute, AttributeValues, TreeList};
 pub use actions::{Action, ActionKind, SetValue, ThinTarget};
 pub use cohort::quantile_diameters;
 pub use load::{InputFile, LoadedModel, Scenario, Uncertainty};
 pub use schema::{DbhDistribution, ThinFrom};
+pub use species::{SpeciesSet, DEFAULT_SPECIES_COLUMN};
 
 /// An error in a scenario file or in the inputs it names. Every variant names the file, and
 /// the key path or the line and column.

@@ -59,10 +59,22 @@ pub struct ActionEntry {
     /// A maximum stand density index, in force from `year` on.
     #[serde(default)]
     pub density_limit: Option<DensityLimitEntry>,
+    /// Remove every tree of the listed species.
+    #[serde(default)]
+    pub remove: Option<RemoveEntry>,
 }
 
-/// `thin = { from = "below", to_stems_per_ha = 700 }`: a method and exactly one target.
-#[derive(Debug, Clone, Copy, PartialEq, Deserialize)]
+/// `remove = { species = ["RA"] }`: every tree of these species leaves.
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RemoveEntry {
+    /// Species codes, as in the species column.
+    pub species: Vec<String>,
+}
+
+/// `thin = { from = "below", to_stems_per_ha = 700 }`: a method and exactly one target,
+/// optionally restricted to some species (`species = ["RA"]`).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ThinEntry {
     /// Which trees go first.
@@ -76,6 +88,9 @@ pub struct ThinEntry {
     /// Fraction of the stems to remove, in (0, 1).
     #[serde(default)]
     pub remove_fraction: Option<f64>,
+    /// Only trees of these species are thinned, and the target refers to them alone.
+    #[serde(default)]
+    pub species: Option<Vec<String>>,
 }
 
 /// `density_limit = { max_sdi = 900 }`.
@@ -106,6 +121,9 @@ pub struct ModelsSection {
     pub survival: String,
     /// Growth model file.
     pub growth: String,
+    /// The tree-list column (or cohort attribute) holding species codes (default `species`).
+    #[serde(default)]
+    pub species_column: Option<String>,
 }
 
 /// `[uncertainty]`.
@@ -166,6 +184,9 @@ pub struct CohortSection {
     /// The tree list's column names where they differ from `stand`, `tree`, `dbh`, `expansion`.
     #[serde(default)]
     pub columns: Option<TreeColumns>,
+    /// `[[cohort.components]]`: a generated cohort of several species, one part each.
+    #[serde(default)]
+    pub components: Vec<CohortComponent>,
 }
 
 /// `[cohort.columns]`: the names of a tree list's role columns.
@@ -180,6 +201,20 @@ pub struct TreeColumns {
     pub dbh: Option<String>,
     /// The expansion-factor column (stems per hectare, or trees per acre with imperial units).
     pub expansion: Option<String>,
+}
+
+/// One `[[cohort.components]]` entry: the trees of one species in a generated mixed cohort.
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CohortComponent {
+    /// Species code, given to every tree of the component in the species column.
+    pub species: String,
+    /// Stems per hectare of this component.
+    pub stems_per_ha: f64,
+    /// Number of records of this component.
+    pub records: i64,
+    /// DBH distribution of this component.
+    pub dbh: DbhDistribution,
 }
 
 /// A DBH distribution (cm) for a generated cohort.

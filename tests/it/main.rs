@@ -64,4 +64,6 @@ mod rank_cli;
 mod report_browser;
 mod scenario_cohort;
 mod scenario_errors;
+mod species_actions;
+mod species_cohort;
 mod terms_design;

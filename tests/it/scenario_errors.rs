@@ -79,7 +79,7 @@ fn bad_actions() {
         &[
             "sc.toml",
             "actions[0]",
-            "exactly one of `thin`, `set` or `density_limit`",
+            "exactly one of `thin`, `remove`, `set` or `density_limit`",
         ],
     );
     assert_bad(
