@@ -8,6 +8,7 @@ mod batch;
 mod binomial;
 mod compare;
 mod drivers;
+mod fingerprint;
 mod harvest;
 mod params;
 mod plan;
@@ -21,10 +22,11 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rayon::prelude::*;
 
-pub use batch::{run_batch, stand_hash, BatchCounts, BatchOptions, Shard};
+pub use batch::{run_batch, stand_hash, BatchCounts, BatchOptions, Shard, StandOutcome};
 pub use compare::{
     compare_scenarios, validate_comparison, CompareOptions, Comparison, DifferenceRow,
 };
+pub use fingerprint::{hash_file, RecordedFile, RunRecord, RNG_ID};
 pub use plan::{check, CheckReport};
 pub use result::{
     ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,

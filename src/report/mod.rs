@@ -3,6 +3,7 @@
 //! failure leaves no partial output.
 
 mod batch;
+mod batch_log;
 mod charts;
 pub(crate) use charts::PALETTE;
 mod charts_classes;
@@ -18,7 +19,8 @@ use std::path::{Path, PathBuf};
 pub const CAUTION: &str = "Caution: model estimates with stated uncertainty, valid only within the range of the fitting data. Defer to local regulations and to licensed professional foresters before acting on them.";
 
 pub use crate::atomic::write_files_atomically;
-pub use batch::{batch_rows, rows_per_stand, BatchOutput, BATCH_COLUMNS};
+pub use batch::{batch_rows, read_record, record_path, rows_per_stand, BatchOutput, BATCH_COLUMNS};
+pub use batch_log::{failed_path, warnings_path, BatchLog};
 pub use charts::{
     band_chart_svg, metric_label, metric_series, metrics_chart_svg, stems_chart_svg,
     survival_chart_svg, Axes, BandPoint, Series,

@@ -13,6 +13,7 @@ mod project_common;
 
 mod batch_api;
 mod batch_cli;
+mod batch_safety;
 mod cli_demo;
 mod cli_fit_columns;
 mod cli_fit_errors;
