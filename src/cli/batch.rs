@@ -6,7 +6,9 @@ use std::path::PathBuf;
 
 use indicatif::{ProgressBar, ProgressStyle};
 use stemcast::data::{ColumnNames, TreeListSpec, TreeListStream};
-use stemcast::project::{run_batch, BatchOptions, RunOptions, RunRecord, Shard, StandOutcome};
+use stemcast::project::{
+    run_batch, shard_text_from, BatchOptions, RunOptions, RunRecord, Shard, StandOutcome,
+};
 use stemcast::report::{rows_per_stand, BatchLog, BatchOutput};
 use stemcast::scenario::Scenario;
 
@@ -25,9 +27,13 @@ pub struct Args {
     /// Output CSV.
     #[arg(long, value_name = "FILE", default_value = "batch.csv")]
     pub out: PathBuf,
-    /// Project only part K of N (stands whose id hash modulo N is K − 1).
-    #[arg(long, value_name = "K/N")]
+    /// Project only part K of N (stands whose id hash modulo N is K − 1); `from-env` takes
+    /// K and N from a Slurm job array (`SLURM_ARRAY_TASK_ID`, `_MIN`, `_COUNT`).
+    #[arg(long, value_name = "K/N|from-env")]
     pub shard: Option<String>,
+    /// Take the part `K/N` from this environment variable (for other schedulers).
+    #[arg(long, value_name = "VAR", conflicts_with = "shard")]
+    pub shard_env: Option<String>,
     /// Worker threads (default: all cores); results do not depend on it.
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
     pub threads: Option<u64>,
@@ -57,7 +63,10 @@ pub struct Args {
 /// Usage, scenario and tree-list errors (exit 2), write failures (exit 1); failed stands
 /// (after all others were projected): exit 2 when one had bad input, else 1.
 pub fn run(args: &Args) -> Result<(), stemcast::Error> {
-    let shard = args.shard.as_deref().map(Shard::parse).transpose()?;
+    let shard_text = shard_text_from(args.shard.as_deref(), args.shard_env.as_deref(), &|v| {
+        std::env::var(v).ok()
+    })?;
+    let shard = shard_text.as_deref().map(Shard::parse).transpose()?;
     let scenario = Scenario::read(&args.scenario)?;
     let categorical = [
         &scenario.survival.model.common,
@@ -88,7 +97,7 @@ pub fn run(args: &Args) -> Result<(), stemcast::Error> {
         &args.trees,
         &run_options,
         row_options,
-        args.shard.clone(),
+        shard_text,
     )?;
     let (mut out, done) = BatchOutput::open(
         &args.out,

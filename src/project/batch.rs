@@ -55,6 +55,11 @@ impl Shard {
         Shard::new(k, n)
     }
 
+    /// The number of parts.
+    pub fn count(&self) -> u64 {
+        self.count
+    }
+
     /// True when stand `id` belongs to this part.
     pub fn takes(&self, id: &str) -> bool {
         stand_hash(id) % self.count == self.index

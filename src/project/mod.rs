@@ -14,6 +14,7 @@ mod params;
 mod plan;
 mod result;
 mod rng;
+mod shard_env;
 mod stand;
 mod step;
 mod summary;
@@ -32,6 +33,7 @@ pub use result::{
     ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,
     TreeRow, YearSummary,
 };
+pub use shard_env::shard_text_from;
 pub use summary::{percentile_type7, summarise};
 
 use crate::scenario::Scenario;

@@ -4,7 +4,7 @@
 //! the end (one per distinct warning, with the number of stands and the range of each number).
 
 use std::collections::{BTreeMap, HashSet};
-use std::fs::File;
+use std::fs::{File, OpenOptions};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -70,7 +70,17 @@ impl BatchLog {
                 }
             }
         }
-        let warnings = File::create(&warnings_path).map_err(|e| Error::io(&warnings_path, e))?;
+        let mut bytes = csv_line(&["stand", "warning"]);
+        for (stand, w) in &kept {
+            bytes.extend(csv_line(&[stand, w]));
+        }
+        // The kept rows are written whole before the file is opened for appending, so that a kill
+        // at any point leaves either the old or the new list.
+        crate::atomic::write_atomic(&warnings_path, &bytes)?;
+        let warnings = OpenOptions::new()
+            .append(true)
+            .open(&warnings_path)
+            .map_err(|e| Error::io(&warnings_path, e))?;
         let mut log = BatchLog {
             warnings,
             warnings_path,
@@ -79,20 +89,9 @@ impl BatchLog {
             seen: BTreeMap::new(),
             order: Vec::new(),
         };
-        let mut head = vec![("stand".to_string(), "warning".to_string())];
-        head.extend(kept);
-        let mut bytes = Vec::new();
-        for (k, (stand, w)) in head.iter().enumerate() {
-            bytes.extend(csv_line(&[stand, w]));
-            if k > 0 {
-                log.count(w, stand);
-            }
+        for (stand, w) in &kept {
+            log.count(w, stand);
         }
-        let path = log.warnings_path.clone();
-        log.warnings
-            .write_all(&bytes)
-            .and_then(|()| log.warnings.flush())
-            .map_err(|e| Error::io(path, e))?;
         Ok(log)
     }
 

@@ -9,6 +9,7 @@ pub(crate) use charts::PALETTE;
 mod charts_classes;
 mod compare;
 pub mod html;
+mod merge;
 mod page;
 mod page_models;
 mod tables;
@@ -27,6 +28,7 @@ pub use charts::{
 };
 pub use charts_classes::{distribution_chart_svg, distribution_years};
 pub use compare::{difference_chart_svg, differences_csv, render_comparison, write_comparison};
+pub use merge::{merge_parts, Merged};
 pub use page::projection_report;
 pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
 

@@ -28,7 +28,7 @@ fn stand_rows(stand: &str, n: usize, treatment: &str, age: u32) -> String {
 
 /// The PROJECT-W2 models (`docs/performance.md#project-w2`) with a treatment term, a
 /// scenario with `replicates`, and `stands` stands in `trees.csv`.
-fn sandbox(stands: usize, replicates: usize, target: u32) -> Sandbox {
+pub(crate) fn sandbox(stands: usize, replicates: usize, target: u32) -> Sandbox {
     let s = Sandbox::new();
     let mut survival = crate::project_common::w2_survival();
     survival.push_str(
@@ -234,4 +234,44 @@ fn age_and_carried_columns_come_from_the_tree_list() {
         // Derived analytically: age in year y = starting age + y.
         assert_eq!(age, planted as f64 + year, "{line}");
     }
+}
+
+#[test]
+fn merge_gives_the_one_machine_bytes_and_refuses_bad_part_sets() {
+    let s = sandbox(9, 10, 500);
+    assert!(batch(&s, &["--out", "one.csv"]).status.success());
+    for k in 1..=3 {
+        let (part, out) = (format!("{k}/3"), format!("p{k}.csv"));
+        let o = batch(&s, &["--shard", &part, "--out", &out]);
+        assert!(o.status.success(), "{}", stderr(&o));
+    }
+    let o = s.run(&["merge", "p3.csv", "p1.csv", "p2.csv", "--out", "m.csv"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert_eq!(
+        String::from_utf8_lossy(&read(&s, "m.csv")),
+        String::from_utf8_lossy(&read(&s, "one.csv"))
+    );
+    assert_eq!(
+        read(&s, "m.csv.warnings.csv"),
+        read(&s, "one.csv.warnings.csv")
+    );
+    let refused = |args: &[&str], needle: &str| {
+        let mut argv = vec!["merge"];
+        argv.extend_from_slice(args);
+        argv.extend_from_slice(&["--out", "bad.csv"]);
+        let o = s.run(&argv);
+        let err = stderr(&o);
+        assert_eq!(o.status.code(), Some(2), "{err}");
+        assert!(err.contains(needle), "{needle:?} not in {err}");
+        assert!(!s.path("bad.csv").exists());
+    };
+    refused(&["p1.csv", "p2.csv"], "missing shard 3/3");
+    refused(
+        &["p1.csv", "p2.csv", "p2.csv", "p3.csv"],
+        "shard 2/3 is given twice",
+    );
+    // A part of another run: another seed.
+    let o = batch(&s, &["--shard", "3/3", "--seed", "10", "--out", "q3.csv"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    refused(&["p1.csv", "p2.csv", "q3.csv"], "seed 9 then, 10 now");
 }

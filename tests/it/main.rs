@@ -64,4 +64,5 @@ mod rank_cli;
 mod report_browser;
 mod scenario_cohort;
 mod scenario_errors;
+mod slurm;
 mod terms_design;
