@@ -92,27 +92,43 @@ fn spawn(s: &Sandbox, extra: &[&str]) -> std::process::Child {
 #[test]
 fn ten_kills_then_resume_give_the_uninterrupted_bytes() {
     let s = sandbox(16, 200, 500);
-    let start = Instant::now();
     let o = batch(&s, &["--threads", "1", "--out", "whole.csv"]);
     assert!(o.status.success(), "{}", stderr(&o));
-    let full = start.elapsed().as_millis().max(20) as u64;
     let whole = read(&s, "whole.csv");
     let whole_warnings = read(&s, "whole.csv.warnings.csv");
-    // Kill points spread over the whole run by a fixed linear congruential sequence (any
-    // points do; fixed ones keep a failure reproducible).
+    // Each run is killed once the output has grown past a point drawn from a fixed linear
+    // congruential sequence between its current and its final length (any points do; fixed
+    // ones keep a failure reproducible).
     let mut x: u64 = 12345;
+    let mut interrupted = 0;
     for round in 0..10 {
+        let have = read(&s, "batch.csv").len() as u64;
+        if round > 0 && have >= whole.len() as u64 {
+            break;
+        }
         x = x
             .wrapping_mul(6364136223846793005)
             .wrapping_add(1442695040888963407);
-        let wait = (x >> 33) % full;
+        let target = have + (x >> 33) % (whole.len() as u64 - have).max(1);
         let resume: &[&str] = if round == 0 { &[] } else { &["--resume"] };
         let mut child = spawn(&s, resume);
-        std::thread::sleep(Duration::from_millis(wait));
+        let t = Instant::now();
+        while (read(&s, "batch.csv").len() as u64) < target
+            && t.elapsed() < Duration::from_secs(30)
+            && child.try_wait().ok().flatten().is_none()
+        {
+            std::thread::sleep(Duration::from_micros(500));
+        }
         // Child::kill sends SIGKILL on Unix.
         let _ = child.kill();
         let _ = child.wait();
+        interrupted += usize::from(read(&s, "batch.csv") != whole);
     }
+    // Otherwise the kills all came too late and tested nothing.
+    assert!(
+        interrupted >= 5,
+        "only {interrupted} kills interrupted the run"
+    );
     let o = batch(&s, &["--threads", "1", "--resume"]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert_eq!(
