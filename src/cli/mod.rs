@@ -11,6 +11,7 @@ mod fit_height;
 mod fit_ingrowth;
 mod input_args;
 mod intervals;
+mod merge;
 mod project;
 mod rank;
 mod run_args;
@@ -37,6 +38,8 @@ enum Command {
     Project(project::Args),
     /// Project one scenario for every stand of a tree list into one long CSV.
     Batch(batch::Args),
+    /// Put the outputs of the shards of one batch run together, in the tree list's order.
+    Merge(merge::Args),
     /// Project several scenarios with common random numbers and compare them with the first.
     Compare(compare::Args),
     /// Fit a survival or growth model from a remeasurement CSV, or a height-diameter curve or
@@ -57,6 +60,7 @@ pub fn run(cli: Cli) -> Result<(), Error> {
         Command::Project(a) => project::run(&a),
         Command::Compare(a) => compare::run(&a),
         Command::Batch(a) => batch::run(&a),
+        Command::Merge(a) => merge::run(&a),
         Command::Fit(c) => fit::run(*c),
         Command::Rank(a) => rank::run(*a),
         Command::Intervals(a) => intervals::run(&a),

@@ -8,11 +8,13 @@ mod batch;
 mod binomial;
 mod compare;
 mod drivers;
+mod fingerprint;
 mod harvest;
 mod params;
 mod plan;
 mod result;
 mod rng;
+mod shard_env;
 mod species_actions;
 mod stand;
 mod step;
@@ -22,15 +24,17 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 use rayon::prelude::*;
 
-pub use batch::{run_batch, stand_hash, BatchCounts, BatchOptions, Shard};
+pub use batch::{run_batch, stand_hash, BatchCounts, BatchOptions, Shard, StandOutcome};
 pub use compare::{
     compare_scenarios, validate_comparison, CompareOptions, Comparison, DifferenceRow,
 };
+pub use fingerprint::{hash_file, RecordedFile, RunRecord, RNG_ID};
 pub use plan::{check, CheckReport};
 pub use result::{
     ClassRow, Driver, HarvestAction, HarvestRow, Metric, ProjectionResult, Settings, Summary,
     TreeRow, YearSummary,
 };
+pub use shard_env::shard_text_from;
 pub use summary::{percentile_type7, summarise};
 
 use crate::scenario::Scenario;

@@ -1,32 +1,37 @@
-//! `batch.csv`: the summary rows of every stand, one long file appended stand by stand.
+//! `batch.csv`: the summary rows of every stand, one long file appended stand by stand in
+//! input order, beside its run record `batch.csv.run.json` (`docs/outputs.md#batch`).
 //!
-//! A fresh run writes to a hidden temp file in the target folder and renames it into place at
-//! the end, so a failed run leaves no output. A resumed run appends to the existing file and
-//! flushes after every stand, so an interrupted run can be resumed again.
+//! The output is written in place and flushed after every stand, so that a run killed at any
+//! point can be resumed (`--resume` cuts an incomplete last stand and appends the rest) and
+//! ends byte-identical to an uninterrupted run. The run record is checked first: a resume
+//! with other settings or inputs is refused. While a run writes, it holds an advisory lock on
+//! the output (released by the kernel when the process ends), so a second writer is refused.
 
 use std::collections::HashSet;
 use std::fs::{File, OpenOptions};
-use std::io::Write;
+use std::io::{Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
 
+use fs4::fs_std::FileExt;
+
 use super::tables::summary_rows;
-use crate::project::{Metric, ProjectionResult};
+use crate::project::{Metric, ProjectionResult, RunRecord};
 use crate::scenario::Scenario;
 use crate::Error;
 
-/// The columns of `batch.csv`.
+/// The columns of `batch.csv` (carried stand columns go between `stand` and `scenario`).
 pub const BATCH_COLUMNS: [&str; 11] = [
     "stand", "scenario", "driver", "year", "age", "metric", "mean", "sd", "p05", "p50", "p95",
 ];
 
 /// The rows of one stand's projection in `batch.csv` (no header): `summary.csv` rows with
-/// the stand id in front.
-pub fn batch_rows(r: &ProjectionResult) -> Vec<u8> {
+/// the stand id and the carried values in front.
+pub fn batch_rows(r: &ProjectionResult, carried: &[String]) -> Vec<u8> {
     let mut w = csv::Writer::from_writer(Vec::new());
     for row in summary_rows(r) {
+        let front = std::iter::once(r.stand.as_str()).chain(carried.iter().map(|s| s.as_str()));
         // Writing to memory cannot fail; an error here would be a bug in csv.
-        let _ =
-            w.write_record(std::iter::once(r.stand.as_str()).chain(row.iter().map(|s| s.as_str())));
+        let _ = w.write_record(front.chain(row.iter().map(|s| s.as_str())));
     }
     w.into_inner().unwrap_or_default()
 }
@@ -37,128 +42,217 @@ pub fn rows_per_stand(s: &Scenario) -> usize {
     (steps + 1) * Metric::ALL.len()
 }
 
-/// An open `batch.csv` being written.
+/// The run record beside an output: `<out>.run.json`.
+pub fn record_path(out: &Path) -> PathBuf {
+    sibling(out, ".run.json")
+}
+
+/// `<out><suffix>`.
+pub(crate) fn sibling(out: &Path, suffix: &str) -> PathBuf {
+    let mut name = out.as_os_str().to_os_string();
+    name.push(suffix);
+    PathBuf::from(name)
+}
+
+/// Read a run record.
+///
+/// # Errors
+/// [`Error::Io`]; [`Error::Usage`] when the file is not an intact run record.
+pub fn read_record(path: &Path) -> Result<RunRecord, Error> {
+    let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, e))?;
+    let record: RunRecord = serde_json::from_str(&text).map_err(|e| {
+        Error::Usage(format!(
+            "{}: not a stemcast batch run record ({e})",
+            path.display()
+        ))
+    })?;
+    if !record.is_intact() {
+        return Err(Error::Usage(format!(
+            "{}: the run record was edited (its fingerprint does not match its fields)",
+            path.display()
+        )));
+    }
+    Ok(record)
+}
+
+/// An open `batch.csv` being written, locked against other writers.
 #[derive(Debug)]
 pub struct BatchOutput {
     file: File,
     target: PathBuf,
-    /// The temp file of a fresh run, renamed to `target` by [`BatchOutput::finish`].
-    temp: Option<PathBuf>,
+    /// True when this run started the file (it is removed by [`BatchOutput::discard`]).
+    fresh: bool,
 }
 
 impl BatchOutput {
-    /// Start a fresh output: a hidden temp file next to `path`, holding the header.
+    /// Open the output at `path` for the run `record`, with `carry` columns after `stand`.
+    /// Without `resume`, or when there is nothing to resume, the file is started afresh
+    /// (record, then header). With `resume`, returns the ids of the stands it holds in full,
+    /// after cutting off an incomplete last stand.
     ///
     /// # Errors
-    /// [`Error::Io`] when the folder cannot be written.
-    pub fn create(path: &Path) -> Result<BatchOutput, Error> {
-        let dir = match path.parent() {
-            Some(d) if !d.as_os_str().is_empty() => d,
-            _ => Path::new("."),
-        };
-        let name = path
-            .file_name()
-            .map(|n| n.to_string_lossy().into_owned())
-            .ok_or_else(|| Error::Usage(format!("{}: not a file name", path.display())))?;
-        let temp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
-        let file = File::create(&temp).map_err(|e| Error::io(&temp, e))?;
+    /// [`Error::Io`], also when another process holds the lock (exit 1); [`Error::Usage`] when
+    /// resuming a file written by a different run (naming what differs), a file that is not a
+    /// batch output with these columns, or one whose stand other than the last is incomplete.
+    pub fn open(
+        path: &Path,
+        record: &RunRecord,
+        resume: bool,
+        carry: &[String],
+        rows_per_stand: usize,
+    ) -> Result<(BatchOutput, HashSet<String>), Error> {
+        let mut file = OpenOptions::new()
+            .read(true)
+            .write(true)
+            .create(true)
+            .truncate(false)
+            .open(path)
+            .map_err(|e| Error::io(path, e))?;
+        match file.try_lock_exclusive() {
+            Ok(true) => {}
+            Ok(false) => {
+                return Err(Error::io(
+                    path,
+                    std::io::Error::new(
+                        std::io::ErrorKind::WouldBlock,
+                        "another stemcast run is writing this file (it is locked); wait for it \
+                         to end or choose another --out",
+                    ),
+                ))
+            }
+            Err(e) => return Err(Error::io(path, e)),
+        }
+        let columns = columns(carry);
+        let header = header(&columns);
+        let rec_path = record_path(path);
+        if resume {
+            let mut bytes = Vec::new();
+            file.read_to_end(&mut bytes)
+                .map_err(|e| Error::io(path, e))?;
+            let started = !header.starts_with(&bytes);
+            let old = if rec_path.exists() {
+                Some(read_record(&rec_path)?)
+            } else {
+                None
+            };
+            match (old, started) {
+                (Some(old), _) => {
+                    let mut diffs = old.differences(record);
+                    if old.shard != record.shard {
+                        diffs.push(format!(
+                            "shard {} then, {} now",
+                            old.shard.as_deref().unwrap_or("none"),
+                            record.shard.as_deref().unwrap_or("none")
+                        ));
+                    }
+                    if !diffs.is_empty() {
+                        return Err(Error::Usage(format!(
+                            "{}: cannot resume: it was written by a different run: {}; run \
+                             without --resume to start afresh",
+                            path.display(),
+                            diffs.join("; ")
+                        )));
+                    }
+                }
+                (None, true) => {
+                    return Err(Error::Usage(format!(
+                        "{}: cannot resume: there is no run record {} beside it",
+                        path.display(),
+                        rec_path.display()
+                    )))
+                }
+                (None, false) => {}
+            }
+            if started {
+                let shown = path.display().to_string();
+                let (done, keep) = complete_stands(&bytes, &shown, &columns, rows_per_stand)?;
+                file.set_len(keep as u64).map_err(|e| Error::io(path, e))?;
+                file.seek(SeekFrom::End(0))
+                    .map_err(|e| Error::io(path, e))?;
+                let out = BatchOutput {
+                    file,
+                    target: path.to_path_buf(),
+                    fresh: false,
+                };
+                return Ok((out, done));
+            }
+        }
+        // A fresh start: the old record goes first, so that a kill from here on never leaves
+        // an old record beside new rows.
+        match std::fs::remove_file(&rec_path) {
+            Err(e) if e.kind() != std::io::ErrorKind::NotFound => {
+                return Err(Error::io(&rec_path, e))
+            }
+            _ => {}
+        }
+        file.set_len(0).map_err(|e| Error::io(path, e))?;
+        file.seek(SeekFrom::Start(0))
+            .map_err(|e| Error::io(path, e))?;
+        let json = serde_json::to_string_pretty(record)
+            .map_err(|e| Error::Usage(format!("cannot encode the run record: {e}")))?;
+        crate::atomic::write_atomic(&rec_path, format!("{json}\n").as_bytes())?;
         let mut out = BatchOutput {
             file,
             target: path.to_path_buf(),
-            temp: Some(temp),
+            fresh: !resume,
         };
-        out.write(&header())?;
-        Ok(out)
-    }
-
-    /// Continue the output at `path`: the ids of the stands it holds in full (each with
-    /// `rows_per_stand` rows and a final line end), after cutting off an incomplete last
-    /// stand. Without a file at `path`, start one in place (header only).
-    ///
-    /// # Errors
-    /// [`Error::Io`]; [`Error::Usage`] when the file is not a `batch.csv` (another header)
-    /// or a stand other than the last is incomplete.
-    pub fn resume(
-        path: &Path,
-        rows_per_stand: usize,
-    ) -> Result<(BatchOutput, HashSet<String>), Error> {
-        let shown = path.display().to_string();
-        if !path.exists() {
-            let file = File::create(path).map_err(|e| Error::io(path, e))?;
-            let mut out = BatchOutput {
-                file,
-                target: path.to_path_buf(),
-                temp: None,
-            };
-            out.write(&header())?;
-            return Ok((out, HashSet::new()));
-        }
-        let bytes = std::fs::read(path).map_err(|e| Error::io(path, e))?;
-        let (done, keep) = complete_stands(&bytes, &shown, rows_per_stand)?;
-        let file = OpenOptions::new()
-            .write(true)
-            .open(path)
-            .map_err(|e| Error::io(path, e))?;
-        file.set_len(keep as u64).map_err(|e| Error::io(path, e))?;
-        let file = OpenOptions::new()
-            .append(true)
-            .open(path)
-            .map_err(|e| Error::io(path, e))?;
-        let out = BatchOutput {
-            file,
-            target: path.to_path_buf(),
-            temp: None,
-        };
-        Ok((out, done))
+        out.write(&header)?;
+        Ok((out, HashSet::new()))
     }
 
     /// Append one stand's rows and flush them to the file.
     ///
     /// # Errors
     /// [`Error::Io`].
-    pub fn append(&mut self, r: &ProjectionResult) -> Result<(), Error> {
-        self.write(&batch_rows(r))
+    pub fn append(&mut self, r: &ProjectionResult, carried: &[String]) -> Result<(), Error> {
+        self.write(&batch_rows(r, carried))
     }
 
-    /// Close the output; a fresh run's temp file is renamed into place.
+    /// Close the output, synced to the device.
     ///
     /// # Errors
-    /// [`Error::Io`]; the temp file is then removed.
-    pub fn finish(mut self) -> Result<PathBuf, Error> {
+    /// [`Error::Io`].
+    pub fn finish(self) -> Result<PathBuf, Error> {
         self.file
             .sync_all()
             .map_err(|e| Error::io(&self.target, e))?;
-        if let Some(temp) = self.temp.take() {
-            if let Err(e) = std::fs::rename(&temp, &self.target) {
-                let _ = std::fs::remove_file(&temp);
-                return Err(Error::io(&self.target, e));
-            }
-        }
         Ok(self.target.clone())
     }
 
+    /// Give up after bad input: a file this run started is removed with its run record (a
+    /// resumed file is left as it was, plus any complete stands).
+    pub fn discard(self) {
+        if self.fresh {
+            let _ = std::fs::remove_file(&self.target);
+            let _ = std::fs::remove_file(record_path(&self.target));
+        }
+    }
+
+    /// True when this run started the file.
+    pub fn is_fresh(&self) -> bool {
+        self.fresh
+    }
+
     fn write(&mut self, bytes: &[u8]) -> Result<(), Error> {
-        let shown = self.temp.as_ref().unwrap_or(&self.target).clone();
         self.file
             .write_all(bytes)
             .and_then(|()| self.file.flush())
-            .map_err(|e| Error::io(shown, e))
+            .map_err(|e| Error::io(&self.target, e))
     }
 }
 
-impl Drop for BatchOutput {
-    /// A fresh run that did not finish leaves no file behind.
-    fn drop(&mut self) {
-        if let Some(temp) = self.temp.take() {
-            let _ = std::fs::remove_file(temp);
-        }
-    }
+fn columns(carry: &[String]) -> Vec<String> {
+    let mut c: Vec<String> = vec![BATCH_COLUMNS[0].to_string()];
+    c.extend(carry.iter().cloned());
+    c.extend(BATCH_COLUMNS[1..].iter().map(|s| s.to_string()));
+    c
 }
 
-fn header() -> Vec<u8> {
-    let mut line = BATCH_COLUMNS.join(",");
-    line.push('\n');
-    line.into_bytes()
+fn header(columns: &[String]) -> Vec<u8> {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    // Writing to memory cannot fail.
+    let _ = w.write_record(columns);
+    w.into_inner().unwrap_or_default()
 }
 
 /// The stands held in full by a `batch.csv`, and the length in bytes to keep (up to the end of
@@ -166,6 +260,7 @@ fn header() -> Vec<u8> {
 fn complete_stands(
     bytes: &[u8],
     shown: &str,
+    columns: &[String],
     rows_per_stand: usize,
 ) -> Result<(HashSet<String>, usize), Error> {
     let bad = |m: String| Error::Usage(format!("{shown}: cannot resume: {m}"));
@@ -179,12 +274,10 @@ fn complete_stands(
             .read_byte_record(record)
             .map_err(|e| bad(format!("not a CSV file ({e})")))
     };
-    if !read(&mut reader, &mut record)?
-        || record.iter().ne(BATCH_COLUMNS.iter().map(|c| c.as_bytes()))
-    {
+    if !read(&mut reader, &mut record)? || record.iter().ne(columns.iter().map(|c| c.as_bytes())) {
         return Err(bad(format!(
             "the first line is not the batch header {}",
-            BATCH_COLUMNS.join(",")
+            columns.join(",")
         )));
     }
     let mut done = HashSet::new();
@@ -197,7 +290,7 @@ fn complete_stands(
         let more = read(&mut reader, &mut record)?;
         let end = reader.position().byte() as usize;
         let id = more.then(|| record.get(0).unwrap_or_default().to_vec());
-        let well = record.len() == BATCH_COLUMNS.len();
+        let well = record.len() == columns.len();
         match (current.as_mut(), &id) {
             (Some((stand, _, rows, all)), Some(id)) if stand == id => {
                 *rows += 1;

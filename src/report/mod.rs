@@ -3,11 +3,13 @@
 //! failure leaves no partial output.
 
 mod batch;
+mod batch_log;
 mod charts;
 pub(crate) use charts::PALETTE;
 mod charts_classes;
 mod compare;
 pub mod html;
+mod merge;
 mod page;
 mod page_models;
 mod tables;
@@ -18,13 +20,15 @@ use std::path::{Path, PathBuf};
 pub const CAUTION: &str = "Caution: model estimates with stated uncertainty, valid only within the range of the fitting data. Defer to local regulations and to licensed professional foresters before acting on them.";
 
 pub use crate::atomic::write_files_atomically;
-pub use batch::{batch_rows, rows_per_stand, BatchOutput, BATCH_COLUMNS};
+pub use batch::{batch_rows, read_record, record_path, rows_per_stand, BatchOutput, BATCH_COLUMNS};
+pub use batch_log::{failed_path, warnings_path, BatchLog};
 pub use charts::{
     band_chart_svg, metric_label, metric_series, metrics_chart_svg, stems_chart_svg,
     survival_chart_svg, Axes, BandPoint, Series,
 };
 pub use charts_classes::{distribution_chart_svg, distribution_years};
 pub use compare::{difference_chart_svg, differences_csv, render_comparison, write_comparison};
+pub use merge::{merge_parts, Merged};
 pub use page::projection_report;
 pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
 

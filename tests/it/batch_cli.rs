@@ -183,20 +183,6 @@ fn a_duplicate_tree_in_a_stand_is_refused() {
 }
 
 #[test]
-fn an_unknown_level_in_a_stand_is_refused() {
-    let trees = format!(
-        "{HEADER}{}{}",
-        stand_rows("x", 5, "a"),
-        stand_rows("y", 5, "c")
-    );
-    refused(
-        &trees,
-        &[],
-        &["batch.toml", "cohort.trees", "stand \"y\"", "\"c\""],
-    );
-}
-
-#[test]
 fn shards_outside_one_to_n_are_refused() {
     let trees = format!("{HEADER}{}", stand_rows("x", 5, "a"));
     refused(&trees, &["--shard", "3/2"], &["--shard 3/2"]);

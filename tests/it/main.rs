@@ -13,6 +13,7 @@ mod project_common;
 
 mod batch_api;
 mod batch_cli;
+mod batch_safety;
 mod cli_demo;
 mod cli_fit_columns;
 mod cli_fit_errors;
@@ -64,6 +65,7 @@ mod rank_cli;
 mod report_browser;
 mod scenario_cohort;
 mod scenario_errors;
+mod slurm;
 mod species_actions;
 mod species_cohort;
 mod terms_design;
