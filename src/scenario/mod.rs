@@ -4,6 +4,7 @@
 mod actions;
 mod bind;
 mod cohort;
+mod limits;
 mod load;
 pub mod schema;
 

@@ -34,6 +34,7 @@ mod glm_iterations;
 mod glm_properties;
 mod glm_reference;
 mod glm_robust;
+mod harden_limits;
 mod harden_model;
 mod hd_height;
 mod hd_height_cli;
