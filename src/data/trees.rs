@@ -197,12 +197,14 @@ impl Layout {
                     Some(v) if !(v.is_finite() && v > 0.0) => {
                         return Err(error(name, format!("{text} is not {what}")))
                     }
-                    Some(v) if v > max => return Err(error(
-                        name,
-                        format!(
+                    Some(v) if v > max => {
+                        return Err(error(
+                            name,
+                            format!(
                             "{text} is above the physical limit of {max} (docs/scenario.md#limits)"
                         ),
-                    )),
+                        ))
+                    }
                     Some(v) => out.push(v),
                 }
             }

@@ -163,8 +163,15 @@ mod tests {
     fn a_65536_character_label_does_not_panic() {
         // The label is longer than the formatter can pad (u16::MAX); it must print as it is.
         let name = "x".repeat(65_536);
-        let t =
-            super::coefficient_table(&[name.clone()], &[1.0], &[0.1], &[10.0], &[1e-5], "z", 1.96);
+        let t = super::coefficient_table(
+            std::slice::from_ref(&name),
+            &[1.0],
+            &[0.1],
+            &[10.0],
+            &[1e-5],
+            "z",
+            1.96,
+        );
         assert!(t.contains(&name));
     }
 }

@@ -387,7 +387,7 @@ pub(crate) fn covariance_from(
         }
     }
     let lowest = super::linalg::min_correlation_eigenvalue(&matrix);
-    if !(lowest >= -super::linalg::PSD_RTOL) {
+    if lowest.is_nan() || lowest < -super::linalg::PSD_RTOL {
         return Err(err(
             "covariance.matrix",
             format!("is not positive semi-definite (smallest eigenvalue of its correlation form {lowest:.3e}, beyond rounding)"),

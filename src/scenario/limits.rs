@@ -16,7 +16,7 @@ pub(super) fn check(
     err: &dyn Fn(&str, String) -> ScenarioError,
 ) -> Result<(), ScenarioError> {
     let sub_steps = raw.horizon_years / sub_step_years;
-    if !(sub_steps <= MAX_SUB_STEPS) {
+    if sub_steps.is_nan() || sub_steps > MAX_SUB_STEPS {
         return Err(err(
             "horizon_years",
             format!(

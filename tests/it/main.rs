@@ -36,6 +36,7 @@ mod glm_reference;
 mod glm_robust;
 mod harden_limits;
 mod harden_model;
+mod harden_output;
 mod hd_height;
 mod hd_height_cli;
 mod hd_volume;
