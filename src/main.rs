@@ -11,6 +11,8 @@ fn main() -> ExitCode {
     let args = cli::Cli::parse();
     match cli::run(args) {
         Ok(()) => ExitCode::SUCCESS,
+        // A reader that went away (`stemcast … | head`) is not a failure.
+        Err(e) if cli::out::is_closed_stdout(&e) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("stemcast: error: {e}");
             ExitCode::from(e.exit_code() as u8)

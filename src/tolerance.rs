@@ -33,3 +33,8 @@ pub const NLS_ZERO_RESIDUAL_RTOL: f64 = 1e-12;
 pub const NEWTON_STEP_SE_TOL: f64 = 1e-7;
 /// Maximum number of Newton iterations of the ingrowth count part.
 pub const NEWTON_MAX_ITERATIONS: usize = 200;
+/// A projected covariate counts as outside a model's fitting range only when it passes a bound
+/// by more than this relative amount (docs/scenario.md): `x < lo − tol·|lo|` or
+/// `x > hi + tol·|hi|`, so a rounding-level excursion such as 0.9999999999999999 below a minimum
+/// of 1 does not warn.
+pub const EXTRAPOLATION_RTOL: f64 = 1e-9;

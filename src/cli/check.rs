@@ -21,12 +21,12 @@ pub fn run(args: &Args) -> Result<(), stemcast::Error> {
     let scenario = Scenario::read(&args.scenario)?;
     let report = check(&scenario)?;
     for line in &report.plan {
-        println!("{line}");
+        outln!("{line}");
     }
     for w in &report.warnings {
-        println!("warning: {w}");
+        outln!("warning: {w}");
     }
-    println!(
+    outln!(
         "{}: ok{}",
         args.scenario.display(),
         if report.warnings.is_empty() {

@@ -85,7 +85,7 @@ pub fn run(args: &Args) -> Result<(), Error> {
             eprintln!("warning: {}: {w}", r.scenario);
         }
     }
-    println!(
+    outln!(
         "compared {} scenarios against \"{}\" ({} paired replicates, seed {}): wrote {} files to {}",
         comparison.results.len(),
         comparison.results[0].scenario,

@@ -70,8 +70,8 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
         units: Units::Metric,
         input: Default::default(),
     };
-    println!("stemcast demo — an invented planting trial (12 plots, remeasured after 5 years)");
-    println!("data: {}\n", data_path.display());
+    outln!("stemcast demo — an invented planting trial (12 plots, remeasured after 5 years)");
+    outln!("data: {}\n", data_path.display());
 
     let survival = fit_survival(&SurvivalSpec {
         data: data.clone(),
@@ -88,11 +88,11 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
     let survival_path = out.join("models").join("survival.toml");
     write_atomic(&survival_path, survival.model.to_toml()?.as_bytes())?;
     let source = data_path.display().to_string();
-    print!(
+    out!(
         "{}",
         strip_caution(&summary::survival_text(&survival, &source))
     );
-    println!("  model file: {}\n", survival_path.display());
+    outln!("  model file: {}\n", survival_path.display());
 
     let growth = fit_growth(&GrowthSpec {
         data,
@@ -102,8 +102,8 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
     })?;
     let growth_path = out.join("models").join("growth.toml");
     write_atomic(&growth_path, growth.model.to_toml()?.as_bytes())?;
-    print!("{}", strip_caution(&summary::growth_text(&growth, &source)));
-    println!("  model file: {}\n", growth_path.display());
+    out!("{}", strip_caution(&summary::growth_text(&growth, &source)));
+    outln!("  model file: {}\n", growth_path.display());
 
     let scenario_dir = out.join("scenarios");
     mkdir(&scenario_dir)?;
@@ -118,21 +118,21 @@ pub fn run(args: &DemoArgs) -> Result<(), Error> {
     let dir = out.join("comparison");
     stemcast::report::write_comparison(&dir, &comparison, &scenarios)?;
     for r in &comparison.results {
-        print!("{}", projection_table(r));
+        out!("{}", projection_table(r));
     }
-    print!("{}", difference_table(&comparison));
+    out!("{}", difference_table(&comparison));
     let warnings: usize = comparison.results.iter().map(|r| r.warnings.len()).sum();
     if warnings > 0 {
-        println!(
+        outln!(
             "{warnings} warnings, extrapolation beyond the fitting data among them: see the report"
         );
     }
-    println!(
+    outln!(
         "\nreport: {}\nfiles:  {} (summary.csv, differences.csv, harvest.csv, classes.csv, charts)\n",
         dir.join("report.html").display(),
         dir.display()
     );
-    println!("{}", summary::CAUTION);
+    outln!("{}", summary::CAUTION);
     Ok(())
 }
 

@@ -1,7 +1,7 @@
 //! `stemcast fit survival` and `stemcast fit growth` (`fit height` and `fit volume` are in
 //! `fit_height.rs`).
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use clap::Subcommand;
 use stemcast::data::flags_csv;
@@ -36,8 +36,9 @@ pub enum FitCommand {
     Ingrowth(Box<super::fit_ingrowth::IngrowthArgs>),
 }
 
-fn write_model(path: &Option<PathBuf>, model: &ModelFile) -> Result<(), Error> {
+fn write_model(path: &Option<PathBuf>, model: &ModelFile, input: &Path) -> Result<(), Error> {
     if let Some(p) = path {
+        super::out::distinct(p, &[input])?;
         stemcast::atomic::write_atomic(p, model.to_toml()?.as_bytes())?;
     }
     Ok(())
@@ -51,11 +52,12 @@ pub(crate) fn write_screen(path: &Option<PathBuf>, screening: &Screening) -> Res
     Ok(())
 }
 
-fn print(format: Format, text: String, json: serde_json::Value) {
+fn print(format: Format, text: String, json: serde_json::Value) -> Result<(), Error> {
     match format {
-        Format::Text => print!("{text}"),
-        Format::Json => println!("{json:#}"),
+        Format::Text => out!("{text}"),
+        Format::Json => outln!("{json:#}"),
     }
+    Ok(())
 }
 
 fn survival(a: SurvivalArgs) -> Result<(), Error> {
@@ -82,14 +84,14 @@ fn survival(a: SurvivalArgs) -> Result<(), Error> {
     if let (Some(path), Some(svg)) = (&a.calibration_svg, svg) {
         stemcast::atomic::write_atomic(path, svg.as_bytes())?;
     }
-    write_model(&a.common.out, &fit.model)?;
+    write_model(&a.common.out, &fit.model, &a.common.data.data)?;
     write_screen(&a.common.data.input.screen, &fit.screening)?;
     let source = a.common.data.data.display().to_string();
     print(
         a.common.format,
         summary::survival_text(&fit, &source),
         summary::survival_json(&fit),
-    );
+    )?;
     Ok(())
 }
 
@@ -132,14 +134,14 @@ pub fn run(cmd: FitCommand) -> Result<(), Error> {
                 years: years(&a.common.data),
             };
             let fit = fit_growth(&spec)?;
-            write_model(&a.common.out, &fit.model)?;
+            write_model(&a.common.out, &fit.model, &a.common.data.data)?;
             write_screen(&a.common.data.input.screen, &fit.screening)?;
             let source = a.common.data.data.display().to_string();
             print(
                 a.common.format,
                 summary::growth_text(&fit, &source),
                 summary::growth_json(&fit),
-            );
+            )?;
         }
     }
     Ok(())

@@ -113,11 +113,12 @@ fn units(u: UnitsArg) -> Units {
     }
 }
 
-fn print(format: Format, text: String, json: serde_json::Value) {
+fn print(format: Format, text: String, json: serde_json::Value) -> Result<(), Error> {
     match format {
-        Format::Text => print!("{text}"),
-        Format::Json => println!("{json:#}"),
+        Format::Text => out!("{text}"),
+        Format::Json => outln!("{json:#}"),
     }
+    Ok(())
 }
 
 /// Run `fit height`.
@@ -142,6 +143,7 @@ pub fn run_height(a: HeightArgs) -> Result<(), Error> {
     };
     let fit = fit_height(&spec)?;
     if let Some(p) = &a.out {
+        super::out::distinct(p, &[&a.data])?;
         stemcast::atomic::write_atomic(p, fit.model.to_toml()?.as_bytes())?;
     }
     let source = a.data.display().to_string();
@@ -149,7 +151,7 @@ pub fn run_height(a: HeightArgs) -> Result<(), Error> {
         a.format,
         hd_summary::height_text(&fit, &source),
         hd_summary::height_json(&fit),
-    );
+    )?;
     Ok(())
 }
 
@@ -168,6 +170,7 @@ pub fn run_volume(a: VolumeArgs) -> Result<(), Error> {
     };
     let fit = fit_volume(&spec)?;
     if let Some(p) = &a.out {
+        super::out::distinct(p, &[&a.data])?;
         stemcast::atomic::write_atomic(p, fit.model.to_toml()?.as_bytes())?;
     }
     let source = a.data.display().to_string();
@@ -175,6 +178,6 @@ pub fn run_volume(a: VolumeArgs) -> Result<(), Error> {
         a.format,
         hd_summary::volume_text(&fit, &source),
         hd_summary::volume_json(&fit),
-    );
+    )?;
     Ok(())
 }

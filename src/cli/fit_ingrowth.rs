@@ -140,11 +140,12 @@ fn spec(a: &IngrowthArgs) -> Result<IngrowthSpec, Error> {
 pub fn run(a: &IngrowthArgs) -> Result<(), Error> {
     let fit = fit_ingrowth(&spec(a)?)?;
     if let Some(p) = &a.out {
+        super::out::distinct(p, &[&a.data])?;
         stemcast::atomic::write_atomic(p, fit.model.to_toml()?.as_bytes())?;
     }
     match a.format {
-        Format::Text => print!("{}", ingrowth_text(&fit, &a.data.display().to_string())),
-        Format::Json => println!("{:#}", ingrowth_json(&fit)),
+        Format::Text => out!("{}", ingrowth_text(&fit, &a.data.display().to_string())),
+        Format::Json => outln!("{:#}", ingrowth_json(&fit)),
     }
     Ok(())
 }

@@ -75,12 +75,13 @@ pub fn run(a: &Args) -> Result<(), Error> {
     let pairing = history.pair()?;
     let (records, columns) = derive_intervals(&history, &pairing)?;
     let ingrowth_csv = a.ingrowth.as_ref().map(|_| pairing.ingrowth.periods_csv());
+    super::out::distinct(&a.out, &[&a.history])?;
     write_atomic(&a.out, frame_csv(&records.frame, &columns).as_bytes())?;
     if let (Some(path), Some(csv)) = (&a.ingrowth, ingrowth_csv) {
         write_atomic(path, csv.as_bytes())?;
     }
     let c = &pairing.counts;
-    println!(
+    outln!(
         "{}: {} rows, {} plots, {} measurements, {} trees",
         a.history.display(),
         c.rows,
@@ -88,23 +89,26 @@ pub fn run(a: &Args) -> Result<(), Error> {
         c.occasions,
         c.trees
     );
-    println!(
+    outln!(
         "  {} intervals: {} alive, {} dead ({} of them missing, counted dead), {} cut, {} missing (dropped from fits)",
         c.intervals, c.alive, c.dead, c.missing_dead, c.cut, c.missing_dropped
     );
-    println!(
+    outln!(
         "  new trees: {} ingrowth (at or above {}), {} below it, {} first recorded dead or cut",
-        c.ingrowth, pairing.ingrowth.threshold_dbh, c.new_below_threshold, c.new_not_alive
+        c.ingrowth,
+        pairing.ingrowth.threshold_dbh,
+        c.new_below_threshold,
+        c.new_not_alive
     );
     if c.ignored_rows > 0 || c.reappeared > 0 {
-        println!(
+        outln!(
             "  {} dead or cut rows of trees not alive at the previous measurement ignored; {} trees alive again after a recorded death",
             c.ignored_rows, c.reappeared
         );
     }
-    println!("  wrote {}", a.out.display());
+    outln!("  wrote {}", a.out.display());
     if let Some(p) = &a.ingrowth {
-        println!("  wrote {}", p.display());
+        outln!("  wrote {}", p.display());
     }
     Ok(())
 }

@@ -1,6 +1,8 @@
 //! Command-line interface: argument structs (clap derive) and the glue that turns them into
 //! library calls. Only this layer and `main` print.
 
+#[macro_use]
+pub(crate) mod out;
 mod batch;
 mod check;
 mod compare;

@@ -62,7 +62,7 @@ pub fn run(args: &Args) -> Result<(), stemcast::Error> {
     for w in &result.warnings {
         eprintln!("warning: {w}");
     }
-    println!(
+    outln!(
         "{} ({}, {} replicate{}, seed {}): wrote {} files to {}",
         result.scenario,
         result.driver.name(),

@@ -87,9 +87,9 @@ pub fn run(a: RankArgs) -> Result<(), Error> {
     let ranking = rank(&spec)?;
     super::fit::write_screen(&a.data.input.screen, &ranking.screening)?;
     match a.format {
-        RankFormat::Text => print!("{}", rank_text(&ranking)),
-        RankFormat::Csv => print!("{}", rank_csv(&ranking)),
-        RankFormat::Json => println!("{:#}", rank_json(&ranking)),
+        RankFormat::Text => out!("{}", rank_text(&ranking)),
+        RankFormat::Csv => out!("{}", rank_csv(&ranking)),
+        RankFormat::Json => outln!("{:#}", rank_json(&ranking)),
     }
     Ok(())
 }
@@ -112,9 +112,9 @@ fn run_growth(a: &RankArgs) -> Result<(), Error> {
     let ranking = rank_growth(&spec)?;
     super::fit::write_screen(&a.data.input.screen, &ranking.screening)?;
     match a.format {
-        RankFormat::Text => print!("{}", rank_growth_text(&ranking)),
-        RankFormat::Csv => print!("{}", rank_growth_csv(&ranking)),
-        RankFormat::Json => println!("{:#}", rank_growth_json(&ranking)),
+        RankFormat::Text => out!("{}", rank_growth_text(&ranking)),
+        RankFormat::Csv => out!("{}", rank_growth_csv(&ranking)),
+        RankFormat::Json => outln!("{:#}", rank_growth_json(&ranking)),
     }
     Ok(())
 }

@@ -11,6 +11,7 @@ mod history;
 mod ingrowth;
 mod interval_csv;
 mod interval_table;
+pub mod limits;
 mod pair_file;
 mod pairing;
 mod pairing_walk;

@@ -171,17 +171,19 @@ impl Layout {
                 ));
             }
             list.tree.push(id);
-            for (index, name, what, out) in [
+            for (index, name, what, max, out) in [
                 (
                     self.dbh,
                     &self.names.dbh,
                     "a positive diameter",
+                    super::limits::MAX_DBH_CM,
                     &mut list.dbh,
                 ),
                 (
                     self.expansion,
                     &self.names.expansion,
                     "a positive expansion factor",
+                    super::limits::MAX_STEMS_PER_HA,
                     &mut list.expansion,
                 ),
             ] {
@@ -194,6 +196,14 @@ impl Layout {
                     None => return Err(error(name, format!("\"{text}\" is not a number"))),
                     Some(v) if !(v.is_finite() && v > 0.0) => {
                         return Err(error(name, format!("{text} is not {what}")))
+                    }
+                    Some(v) if v > max => {
+                        return Err(error(
+                            name,
+                            format!(
+                            "{text} is above the physical limit of {max} (docs/scenario.md#limits)"
+                        ),
+                        ))
                     }
                     Some(v) => out.push(v),
                 }

@@ -38,6 +38,10 @@ pub(crate) fn fmt_num(v: f64) -> String {
     }
 }
 
+/// Widest padded term column; a longer label (say a 65,536-character category level) runs
+/// past it instead of asking the formatter for a width it cannot pad to.
+const TERM_COLUMN_MAX: usize = 60;
+
 pub(crate) fn coefficient_table(
     names: &[String],
     est: &[f64],
@@ -52,7 +56,7 @@ pub(crate) fn coefficient_table(
         .map(|n| n.chars().count())
         .max()
         .unwrap_or(4)
-        .max(4);
+        .clamp(4, TERM_COLUMN_MAX);
     let mut out = format!(
         "  {:<width$}  {:>12}  {:>12}  {:>9}  {:>9}  {:>27}\n",
         "term", "estimate", "std. error", stat_name, "p", "95 % interval"
@@ -87,9 +91,15 @@ pub fn growth_text(fit: &GrowthFit, source: &str) -> String {
     let t975 = StudentsT::new(0.0, 1.0, o.df_residual as f64)
         .map(|t| t.inverse_cdf(0.975))
         .unwrap_or(f64::NAN);
+    let imperial = fit.model.units.as_deref() == Some("imperial");
+    let (area, length) = if imperial {
+        ("in²", "in")
+    } else {
+        ("cm²", "cm")
+    };
     let response = match fit.response {
-        GrowthResponse::LnBai => "ln(basal-area increment, cm² per tree)".to_string(),
-        GrowthResponse::AnnualIncrement => "annual diameter increment (cm/year)".to_string(),
+        GrowthResponse::LnBai => format!("ln(basal-area increment, {area} per tree)"),
+        GrowthResponse::AnnualIncrement => format!("annual diameter increment ({length}/year)"),
         GrowthResponse::Column => "the response column as given (not projectable)".to_string(),
     };
     let period = match fit.period_years {
@@ -145,4 +155,23 @@ pub fn growth_json(fit: &GrowthFit) -> Value {
         "screening": fit.screening.json(),
         "warnings": fit.warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn a_65536_character_label_does_not_panic() {
+        // The label is longer than the formatter can pad (u16::MAX); it must print as it is.
+        let name = "x".repeat(65_536);
+        let t = super::coefficient_table(
+            std::slice::from_ref(&name),
+            &[1.0],
+            &[0.1],
+            &[10.0],
+            &[1e-5],
+            "z",
+            1.96,
+        );
+        assert!(t.contains(&name));
+    }
 }

@@ -90,6 +90,25 @@ pub fn first_aliased_column(gram: &[f64], p: usize) -> Option<usize> {
     None
 }
 
+/// Rounding allowance for a stored covariance: the smallest eigenvalue of its correlation
+/// form (`D^-1/2 V D^-1/2`, unit diagonal) may be this far below zero (docs/model-files.md).
+pub const PSD_RTOL: f64 = 1e-8;
+
+/// Smallest eigenvalue of the correlation form of a symmetric matrix `v` (rows); a zero
+/// variance is left unscaled. NaN when the decomposition fails.
+pub(crate) fn min_correlation_eigenvalue(v: &[Vec<f64>]) -> f64 {
+    let p = v.len();
+    let scale: Vec<f64> = (0..p)
+        .map(|i| if v[i][i] > 0.0 { v[i][i].sqrt() } else { 1.0 })
+        .collect();
+    let m = DMatrix::from_fn(p, p, |i, j| v[i][j] / (scale[i] * scale[j]));
+    m.symmetric_eigen()
+        .eigenvalues
+        .iter()
+        .copied()
+        .fold(f64::INFINITY, f64::min)
+}
+
 /// Relative size of a QR diagonal below which a column counts as aliased (R `lm` uses 1e-7).
 pub const QR_ALIAS_RTOL: f64 = 1e-7;
 

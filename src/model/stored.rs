@@ -273,6 +273,15 @@ pub(crate) fn predictor_from(
                 format!("estimate of `{}` is not a finite number", e.term),
             ));
         }
+        if let Some(se) = e.std_error.filter(|se| !(*se >= 0.0 && se.is_finite())) {
+            return Err(err(
+                &format!("{key}.std_error"),
+                format!(
+                    "standard error {se} of `{}` is not a non-negative finite number",
+                    e.term
+                ),
+            ));
+        }
         ses.push(e.std_error);
         if e.term == INTERCEPT {
             if i != 0 {
@@ -376,6 +385,13 @@ pub(crate) fn covariance_from(
                 format!("negative variance for `{}`", names[a]),
             ));
         }
+    }
+    let lowest = super::linalg::min_correlation_eigenvalue(&matrix);
+    if lowest.is_nan() || lowest < -super::linalg::PSD_RTOL {
+        return Err(err(
+            "covariance.matrix",
+            format!("is not positive semi-definite (smallest eigenvalue of its correlation form {lowest:.3e}, beyond rounding)"),
+        ));
     }
     Ok(Covariance {
         kind: c.kind,

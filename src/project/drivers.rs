@@ -117,6 +117,7 @@ impl<'a> Engine<'a> {
             ranges: vec![[f64::INFINITY, f64::NEG_INFINITY]; self.n_ranged()],
             idle_thinnings: vec![0; s.actions.len()],
             harvest: vec![[0.0; 2]; self.harvest.len()],
+            runaway: None,
         };
         let n_surv = s.survival_eval.ranged.len();
         let track = self.n_ranged() > 0;
@@ -189,6 +190,9 @@ impl<'a> Engine<'a> {
                 &mut trace,
                 trees.as_deref_mut(),
             );
+            if trace.runaway.is_some() {
+                break;
+            }
         }
         trace
     }
@@ -281,6 +285,10 @@ impl<'a> Engine<'a> {
             removed[0],
             removed[1],
         ]);
+        if let Some(what) = super::runaway::find(stand) {
+            trace.runaway = Some((year, what));
+            return;
+        }
         // Truncation is the floor for positive diameters. Records are in descending DBH
         // order, so the first has the largest class and each class is one run.
         let class_of = |d: f64| (d * (1.0 / CLASS_WIDTH_CM)) as usize;

@@ -14,6 +14,7 @@ mod params;
 mod plan;
 mod result;
 mod rng;
+mod runaway;
 mod shard_env;
 mod species_actions;
 mod stand;
@@ -48,6 +49,20 @@ pub enum ProjectError {
     /// The projection cannot run with these inputs.
     #[error("{0}")]
     Invalid(String),
+    /// Diameters or densities became non-finite or passed the physical limits.
+    #[error("the projection with growth model {model} ran away: stand \"{stand}\", year {year}, {}: {what}; the model cannot be projected this far (docs/scenario.md#limits)", .replicate.map_or("expected trajectory".to_string(), |r| format!("replicate {r}")))]
+    Runaway {
+        /// The growth model's file.
+        model: String,
+        /// The stand.
+        stand: String,
+        /// The output year reached.
+        year: f64,
+        /// The replicate (none for the expected trajectory).
+        replicate: Option<u64>,
+        /// What was found.
+        what: String,
+    },
     /// The worker threads could not be started.
     #[error("cannot start {threads} worker threads: {message}")]
     Threads {
@@ -61,7 +76,10 @@ pub enum ProjectError {
 impl ProjectError {
     /// True for failures of the computation itself (exit code 1).
     pub fn is_runtime(&self) -> bool {
-        matches!(self, ProjectError::Threads { .. })
+        matches!(
+            self,
+            ProjectError::Threads { .. } | ProjectError::Runaway { .. }
+        )
     }
 }
 
@@ -119,6 +137,9 @@ pub(crate) fn run_traced(
     if o.threads == Some(0) {
         return Err(ProjectError::Invalid("threads must be at least 1".into()).into());
     }
+    let output_years = (s.horizon_years / s.step_years).round() as u64 + 1;
+    crate::data::limits::check_run_size(replicates as u64, output_years)
+        .map_err(ProjectError::Invalid)?;
     let engine = Engine::new(s, seed);
     let mut tree_rows = Vec::new();
     let traces: Vec<Trace> = if o.expected {
@@ -145,6 +166,20 @@ pub(crate) fn run_traced(
                 .collect()
         })
     };
+    let first_runaway = traces
+        .iter()
+        .enumerate()
+        .find_map(|(r, t)| t.runaway.clone().map(|x| (r, x)));
+    if let Some((r, (year, what))) = first_runaway {
+        return Err(ProjectError::Runaway {
+            model: s.growth.path.display().to_string(),
+            stand: s.trees.stand.clone(),
+            year,
+            replicate: (!o.expected).then_some(r as u64),
+            what,
+        }
+        .into());
+    }
     let years: Vec<f64> = (0..=engine.steps)
         .map(|k| k as f64 * s.step_years)
         .collect();
@@ -239,7 +274,8 @@ fn warnings(s: &Scenario, traces: &[Trace], years: &[YearSummary]) -> Vec<String
             .fold([f64::INFINITY, f64::NEG_INFINITY], |a, t| {
                 [a[0].min(t.ranges[i][0]), a[1].max(t.ranges[i][1])]
             });
-        if seen[0] < *lo || seen[1] > *hi {
+        let tol = crate::tolerance::EXTRAPOLATION_RTOL;
+        if seen[0] < lo - tol * lo.abs() || seen[1] > hi + tol * hi.abs() {
             out.push(format!(
                 "the {kind} model {} is extrapolated: `{var}` ranges over [{:.4}, {:.4}] in this projection, outside its fitting range [{lo}, {hi}]",
                 path.display(),

@@ -16,6 +16,9 @@ pub(crate) struct Trace {
     pub idle_thinnings: Vec<u32>,
     /// Per harvest event slot: stems/ha and basal area (m²/ha) removed.
     pub harvest: Vec<[f64; 2]>,
+    /// Set when diameters or densities left the physical limits (docs/scenario.md#limits):
+    /// the year and what was found; the replicate stopped there.
+    pub runaway: Option<(f64, String)>,
 }
 
 /// Percentile of sorted data by linear interpolation between order statistics (type 7).

@@ -308,6 +308,7 @@ impl Scenario {
                 return Err(err(key, format!("its {p}-year period is not a whole multiple of the shortest model period ({sub_step_years} years)")).into());
             }
         }
+        super::limits::check(&raw, sub_step_years, replicates, &err)?;
         let uncertainty = raw.uncertainty;
         if uncertainty.parameters {
             for (key, path, c) in [

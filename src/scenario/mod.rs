@@ -5,6 +5,7 @@ mod actions;
 mod bind;
 mod cohort;
 mod components;
+mod limits;
 mod load;
 pub mod schema;
 mod species;
