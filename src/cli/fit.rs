@@ -5,6 +5,7 @@ use std::path::PathBuf;
 use clap::Subcommand;
 use stemcast::fit::estimate::Estimator;
 use stemcast::fit::growth::{fit_growth, GrowthSpec, GrowthTarget};
+use stemcast::fit::mixed::SurvivalPlotEffect;
 use stemcast::fit::summary;
 use stemcast::fit::survival::{fit_survival_with, FitOptions, SurvivalResponse, SurvivalSpec};
 use stemcast::model::file::{GrowthResponse, ModelFile};
@@ -51,6 +52,13 @@ fn survival(a: SurvivalArgs) -> Result<(), Error> {
         dbh_classes: a.dbh_classes.clone(),
         curves: a.calibration_svg.is_some(),
         control: control(&a.model),
+        plot_effect: a
+            .plot_effect
+            .column(&a.common.data)
+            .map(|plot| SurvivalPlotEffect {
+                plot,
+                nodes: a.quadrature as usize,
+            }),
     };
     if a.calibration_svg.is_some() {
         check_svg_possible(&spec)?;

@@ -227,6 +227,7 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
             ranges: design.ranges.clone(),
             ..FitInfo::default()
         }),
+        plot_effect: None,
     };
     Ok(GrowthFit {
         ols,

@@ -3,12 +3,15 @@
 //! model file. Rendering the results as text or JSON lives in [`summary`].
 
 pub mod chart;
+pub mod cluster;
 pub mod curves;
 pub mod estimate;
 pub mod folds;
 pub mod growth;
 pub mod judge;
 pub mod load;
+pub mod mixed;
+pub mod mixed_summary;
 pub mod rank;
 pub mod rank_render;
 pub mod summary;

@@ -143,6 +143,7 @@ pub fn rank(spec: &RankSpec) -> Result<Ranking, Error> {
             cluster: None,
             stands: true,
             stands_why: "cross-validation folds grouped by stand (--stand COL)".into(),
+            plot: None,
         },
     )?;
     let stands = data.stands.as_deref().unwrap_or(&[]);

@@ -2,6 +2,7 @@
 //! growth OLS, diagnostics, and the model file format.
 
 pub mod annualized;
+pub mod cluster;
 pub mod design;
 pub mod diagnostics;
 pub mod file;
@@ -11,6 +12,7 @@ pub mod growth;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
+pub mod mixed;
 pub mod robust;
 pub mod separation;
 pub mod stored;
