@@ -38,7 +38,11 @@ pub fn annualized_inference(
             continue;
         }
         let eta = data.offset.as_ref().map_or(0.0, |o| o[i])
-            + x.row(i).iter().zip(&g.coefficients).map(|(a, b)| a * b).sum::<f64>();
+            + x.row(i)
+                .iter()
+                .zip(&g.coefficients)
+                .map(|(a, b)| a * b)
+                .sum::<f64>();
         let r = Record {
             y: data.y[i],
             n: 1.0,

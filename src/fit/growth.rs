@@ -1,7 +1,6 @@
 //! `fit growth`: from a remeasurement CSV to a fitted diameter-growth model and its model file.
 
-use ndarray::Array1;
-
+use super::growth_mixed::{adjust, GrowthOptions};
 use super::{common_interval, file_has_column, term_needs, DataOptions, Years};
 use crate::data::{
     load_remeasurement, DataError, FrameColumn, Outcome, Purpose, RemeasureCounts, RemeasureSpec,
@@ -41,8 +40,14 @@ pub struct GrowthSpec {
 /// A fitted growth model.
 #[derive(Debug, Clone)]
 pub struct GrowthFit {
-    /// The OLS result.
+    /// The OLS result (with a plot effect: the mixed model's estimates in the same shape).
     pub ols: OlsFit,
+    /// Model-based or cluster-robust covariance.
+    pub covariance_kind: CovarianceKind,
+    /// Clusters of a cluster-robust covariance.
+    pub n_clusters: Option<usize>,
+    /// The plot effect of a mixed model.
+    pub plot_effect: Option<super::mixed::PlotEffectSummary>,
     /// The response kind.
     pub response: GrowthResponse,
     /// The period the model describes (None: not projectable).
@@ -57,13 +62,26 @@ pub struct GrowthFit {
     pub model: ModelFile,
 }
 
-/// Fit the growth model described by `spec`.
+/// Fit the growth model described by `spec` by least squares.
 ///
 /// # Errors
 /// Bad data or terms (exit code 2), rank deficiency (2).
 pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
+    fit_growth_with(spec, &GrowthOptions::default())
+}
+
+/// Fit the growth model described by `spec` with the covariance and plot-effect options of
+/// `opts`.
+///
+/// # Errors
+/// Bad data, terms or options (exit code 2), rank deficiency (2); a mixed model whose
+/// residual variance vanishes (1).
+pub fn fit_growth_with(spec: &GrowthSpec, opts: &GrowthOptions) -> Result<GrowthFit, Error> {
     let needs = term_needs(&spec.predictors, &spec.data)?;
     let mut required = needs.required.clone();
+    for (c, why) in opts.columns() {
+        required.push(Required::new(&c, why));
+    }
     let names = &spec.data.names;
     let years_col = match &spec.years {
         Years::Column(c) => Some(c.clone()),
@@ -180,10 +198,12 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
     warnings.extend(design.warnings.iter().cloned());
     let ols = fit_ols(
         design.x.view(),
-        Array1::from(y).view(),
+        ndarray::ArrayView1::from(&y),
         &design.names,
         design.intercept,
     )?;
+    let adjusted = adjust(ols, design.x.view(), &y, &data.frame, opts)?;
+    let ols = adjusted.ols;
     let model = ModelFile {
         kind: ModelKind::Growth,
         link: None,
@@ -210,7 +230,7 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
             .collect(),
         categorical: design.categorical.clone(),
         covariance: Some(CovarianceEntry {
-            kind: CovarianceKind::Model,
+            kind: adjusted.kind,
             terms: ols.names.clone(),
             matrix: ols.covariance.clone(),
         }),
@@ -218,19 +238,25 @@ pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
             records: Some(ols.records as u64),
             source: Some(spec.data.path.display().to_string()),
             source_sha256: Some(data.sha256.clone()),
-            method: Some("least_squares".to_string()),
+            method: Some(match &adjusted.plot_effect {
+                Some(pe) => pe.method.name().to_string(),
+                None => "least_squares".to_string(),
+            }),
             predictors: Some(spec.predictors.clone()),
             log_likelihood: Some(ols.log_likelihood),
             aic: Some(ols.aic),
             bic: Some(ols.bic),
-            r_squared: Some(ols.r_squared),
+            r_squared: Some(ols.r_squared).filter(|r| r.is_finite()),
             ranges: design.ranges.clone(),
             ..FitInfo::default()
         }),
-        plot_effect: None,
+        plot_effect: adjusted.plot_effect.as_ref().map(|p| p.model_entry()),
     };
     Ok(GrowthFit {
         ols,
+        covariance_kind: adjusted.kind,
+        n_clusters: adjusted.n_clusters,
+        plot_effect: adjusted.plot_effect,
         response,
         period_years: model.period_years,
         counts: data.counts,

@@ -136,7 +136,10 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         (&spec.weights, "--weights"),
         (&spec.offset, "--offset"),
         (&opts.cluster, "--cluster"),
-        (&opts.plot, "--plot-effect (the plot column; name it with --plot COL)"),
+        (
+            &opts.plot,
+            "--plot-effect (the plot column; name it with --plot COL)",
+        ),
     ] {
         if let Some(c) = col {
             required.push(Required::new(c, why));

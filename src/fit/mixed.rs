@@ -114,7 +114,10 @@ pub fn plots(frame: &Frame, column: &str) -> Result<Plots, Error> {
             let mut ids: Vec<f64> = v.iter().map(|x| x + 0.0).collect();
             ids.sort_by(f64::total_cmp);
             ids.dedup();
-            let code = |x: f64| ids.binary_search_by(|p| p.total_cmp(&(x + 0.0))).unwrap_or(0);
+            let code = |x: f64| {
+                ids.binary_search_by(|p| p.total_cmp(&(x + 0.0)))
+                    .unwrap_or(0)
+            };
             Ok(Plots {
                 codes: v.iter().map(|&x| code(x) as u32).collect(),
                 labels: ids.iter().map(|x| format!("{x}")).collect(),

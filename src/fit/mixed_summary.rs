@@ -44,9 +44,7 @@ pub fn method_phrase(pe: &PlotEffectSummary) -> String {
 
 /// The text block of a plot effect: σ_u, the test, the ICC and the plots.
 pub fn plot_effect_text(pe: &PlotEffectSummary, latent: bool) -> String {
-    let se = pe
-        .std_error_sd
-        .map_or("–".to_string(), |s| fmt_num(s));
+    let se = pe.std_error_sd.map_or("–".to_string(), fmt_num);
     let mut out = format!(
         "\n  plot effect (random intercept per `{}`, {} plots): SD {} (std. error {se})\n",
         pe.column,

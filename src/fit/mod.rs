@@ -8,6 +8,7 @@ pub mod curves;
 pub mod estimate;
 pub mod folds;
 pub mod growth;
+pub mod growth_mixed;
 pub mod judge;
 pub mod load;
 pub mod mixed;
@@ -72,9 +73,17 @@ pub struct TermNeeds {
 /// A term outside the grammar (design §6).
 pub fn term_needs(predictors: &str, data: &DataOptions) -> Result<TermNeeds, ModelError> {
     let terms = parse_predictors(predictors)?;
-    if terms.is_empty() {
+    let intercept_only = predictors
+        .split(',')
+        .any(|t| t.trim() == crate::model::terms::INTERCEPT_ONLY);
+    if terms.is_empty() && !intercept_only {
         return Err(ModelError::Invalid(
-            "--predictors is empty; give at least one term, e.g. --predictors \"dbh\"".into(),
+            "--predictors is empty; give at least one term, e.g. --predictors \"dbh\", or 1 for the intercept alone".into(),
+        ));
+    }
+    if terms.is_empty() && !data.intercept {
+        return Err(ModelError::Invalid(
+            "--predictors 1 fits the intercept alone, which --no-intercept removes; drop one of them".into(),
         ));
     }
     let mut required: Vec<Required> = Vec::new();

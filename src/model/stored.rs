@@ -11,8 +11,8 @@ use super::file::{
     ModelFile, ModelKind, Outcome,
 };
 use super::link::Link;
-pub use super::mixed::entry::PlotEffect;
 use super::mixed::entry::plot_effect_from;
+pub use super::mixed::entry::PlotEffect;
 use super::terms::{Factor, Term, INTERCEPT};
 use super::ModelError;
 use crate::data::Units;

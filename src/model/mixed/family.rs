@@ -5,8 +5,6 @@
 //!
 //! Binomial constants ln C(n, y) are left out here and added once per fit.
 
-use statrs::function::erf::erfc;
-
 use crate::model::link::Link;
 
 /// |η| beyond which the linear predictor is clamped; far outside any fitted value, it keeps
@@ -16,8 +14,8 @@ const ETA_MAX: f64 = 700.0;
 /// Below this t = e^η the cloglog ratio t/(e^t − 1) and its derivatives use their series.
 const CLOGLOG_SERIES_T: f64 = 0.1;
 
-/// Below this argument the probit log-probability uses the continued fraction of the Mills
-/// ratio instead of `erfc`.
+/// Below this argument the probit Mills ratio uses its continued fraction instead of Cody's
+/// rational function.
 const PROBIT_TAIL_X: f64 = -5.0;
 
 /// How a record's response depends on η.
@@ -83,9 +81,11 @@ impl Family {
         }
     }
 
-    /// The probability of a response of 1 at η (for the annualised family, over `years`).
+    /// The probability of a response of 1 at η (for the annualised family, over `years`);
+    /// probit uses [`ln_phi_and_mills`], which is more precise than the link's `Φ`.
     pub fn probability(self, eta: f64, years: f64) -> f64 {
         match self {
+            Family::Binomial(Link::Probit) => ln_phi_and_mills(eta).0.exp(),
             Family::Binomial(link) => link.inverse(eta),
             Family::Annualized => {
                 let eta = eta.clamp(-ETA_MAX, ETA_MAX);
@@ -124,31 +124,94 @@ fn logit(eta: f64, y: f64, n: f64) -> [f64; 4] {
     ]
 }
 
-/// ln Φ(x) and the inverse Mills ratio λ(x) = φ(x)/Φ(x).
+/// ln Φ(x) and the inverse Mills ratio λ(x) = φ(x)/Φ(x), each to near full precision.
 ///
 /// # Formula
-/// For x ≥ −5, Φ(x) = erfc(−x/√2)/2. Below, Φ(x) = φ(x) R(−x) with the Mills ratio
-/// R(t) = 1/(t + 1/(t + 2/(t + 3/(t + …)))) (Laplace's continued fraction, evaluated
-/// bottom-up), so that neither underflows.
+/// With R(t) = Φ(−t)/φ(t) the Mills ratio: for x ≤ −x₀, Φ(x) = φ(x)R(−x) and λ = 1/R(−x);
+/// for |x| < x₀ (x₀ = 0.67449), Φ(x) = ½ + x·A(x²)/B(x²); for x ≥ x₀,
+/// ln Φ(x) = ln(1 − φ(x)R(x)). A/B and R on [x₀, 5] are W. J. Cody's rational
+/// approximations (Cody 1969; the coefficients of his ANORM, as in R's `pnorm`); for t ≥ 5,
+/// R(t) = 1/(t + 1/(t + 2/(t + 3/(t + …)))) (Laplace's continued fraction, bottom-up).
 pub(crate) fn ln_phi_and_mills(x: f64) -> (f64, f64) {
     let ln_pdf = -0.5 * x * x - 0.5 * (2.0 * std::f64::consts::PI).ln();
-    if x >= PROBIT_TAIL_X {
-        let cdf = 0.5 * erfc(-x / std::f64::consts::SQRT_2);
-        let ln_cdf = if x > 5.0 {
-            (-0.5 * erfc(x / std::f64::consts::SQRT_2)).ln_1p()
-        } else {
-            cdf.ln()
-        };
-        return (ln_cdf, (ln_pdf - ln_cdf).exp());
+    if x <= -CENTRAL_X {
+        let r = mills_ratio(-x);
+        return (ln_pdf + r.ln(), 1.0 / r);
     }
-    let t = -x;
-    // 60 terms reach full precision for t ≥ 5 (the fraction converges faster as t grows).
-    let mut tail = t;
-    for k in (1..=60).rev() {
-        tail = t + k as f64 / tail;
+    let cdf = if x < CENTRAL_X {
+        0.5 + central(x)
+    } else {
+        let upper = ln_pdf.exp() * mills_ratio(x);
+        return ((-upper).ln_1p(), (ln_pdf - (-upper).ln_1p()).exp());
+    };
+    (cdf.ln(), ln_pdf.exp() / cdf)
+}
+
+/// |x| below which Φ(x) − ½ is Cody's central rational function.
+const CENTRAL_X: f64 = 0.674_489_75;
+
+/// Φ(x) − ½ for |x| < [`CENTRAL_X`] (Cody's first interval).
+fn central(x: f64) -> f64 {
+    const A: [f64; 5] = [
+        2.235_252_035_460_683_928_7,
+        161.028_231_068_555_878_81,
+        1_067.689_485_460_370_958_2,
+        18_154.981_253_343_561_249,
+        0.065_682_337_918_207_449_113,
+    ];
+    const B: [f64; 4] = [
+        47.202_581_904_688_241_87,
+        976.098_551_737_776_693_22,
+        10_260.932_208_618_978_205,
+        45_507.789_335_026_729_956,
+    ];
+    let xsq = x * x;
+    let (mut num, mut den) = (A[4] * xsq, xsq);
+    for i in 0..3 {
+        num = (num + A[i]) * xsq;
+        den = (den + B[i]) * xsq;
     }
-    let mills = 1.0 / tail;
-    (ln_pdf + mills.ln(), tail)
+    x * (num + A[3]) / (den + B[3])
+}
+
+/// The Mills ratio R(t) = Φ(−t)/φ(t) for t ≥ [`CENTRAL_X`].
+fn mills_ratio(t: f64) -> f64 {
+    if t >= -PROBIT_TAIL_X {
+        // 60 terms reach full precision for t ≥ 5 (the fraction converges faster as t grows).
+        let mut tail = t;
+        for k in (1..=60).rev() {
+            tail = t + k as f64 / tail;
+        }
+        return 1.0 / tail;
+    }
+    const C: [f64; 9] = [
+        0.398_941_512_088_134_667_64,
+        8.883_149_794_388_375_941_2,
+        93.506_656_132_177_855_979,
+        597.270_276_394_800_262_26,
+        2_494.537_585_290_372_671_1,
+        6_848.190_450_536_282_332_6,
+        11_602.651_437_647_350_124,
+        9_842.714_838_383_978_021_8,
+        1.076_557_677_372_019_231_7e-8,
+    ];
+    const D: [f64; 8] = [
+        22.266_688_044_328_115_691,
+        235.387_901_782_624_998_61,
+        1_519.377_599_407_554_805,
+        6_485.558_298_266_760_755,
+        18_615.571_640_885_098_091,
+        34_900.952_721_145_977_266,
+        38_912.003_286_093_271_411,
+        19_685.429_676_859_990_727,
+    ];
+    let (mut num, mut den) = (C[8] * t, t);
+    for i in 0..7 {
+        num = (num + C[i]) * t;
+        den = (den + D[i]) * t;
+    }
+    // Cody's ratio is Φ(−t)·e^(t²/2); R is that times √(2π).
+    (num + C[7]) / (den + D[7]) * (2.0 * std::f64::consts::PI).sqrt()
 }
 
 /// λ, λ′, λ″ of the inverse Mills ratio at x, with ln Φ(x).
@@ -188,8 +251,8 @@ fn cloglog_ratio(t: f64) -> (f64, f64, f64) {
         let t2 = t * t;
         let r = 1.0 - t / 2.0 + t2 / 12.0 - t2 * t2 / 720.0 + t2 * t2 * t2 / 30240.0
             - t2 * t2 * t2 * t2 / 1_209_600.0;
-        let rt = -0.5 + t / 6.0 - t2 * t / 180.0 + t2 * t2 * t / 5040.0
-            - t2 * t2 * t2 * t / 151_200.0;
+        let rt =
+            -0.5 + t / 6.0 - t2 * t / 180.0 + t2 * t2 * t / 5040.0 - t2 * t2 * t2 * t / 151_200.0;
         let rtt = 1.0 / 6.0 - t2 / 60.0 + t2 * t2 / 1008.0 - t2 * t2 * t2 / 21600.0;
         return (r, rt, rtt);
     }
@@ -259,30 +322,72 @@ mod tests {
     fn records(f: Family) -> Vec<Record> {
         match f {
             Family::Annualized => vec![
-                Record { y: 1.0, n: 1.0, years: 3.0 },
-                Record { y: 0.0, n: 1.0, years: 7.5 },
-                Record { y: 0.0, n: 1.0, years: 1.0 },
+                Record {
+                    y: 1.0,
+                    n: 1.0,
+                    years: 3.0,
+                },
+                Record {
+                    y: 0.0,
+                    n: 1.0,
+                    years: 7.5,
+                },
+                Record {
+                    y: 0.0,
+                    n: 1.0,
+                    years: 1.0,
+                },
             ],
             _ => vec![
-                Record { y: 1.0, n: 1.0, years: 1.0 },
-                Record { y: 0.0, n: 1.0, years: 1.0 },
-                Record { y: 3.0, n: 11.0, years: 1.0 },
+                Record {
+                    y: 1.0,
+                    n: 1.0,
+                    years: 1.0,
+                },
+                Record {
+                    y: 0.0,
+                    n: 1.0,
+                    years: 1.0,
+                },
+                Record {
+                    y: 3.0,
+                    n: 11.0,
+                    years: 1.0,
+                },
             ],
+        }
+    }
+
+    /// ln μ and ln(1 − μ) by the closed forms of each family (derived analytically):
+    /// logit −ln(1 + e^∓η); probit ln Φ(±η); cloglog ln(1 − exp(−e^η)) and −e^η;
+    /// annualised ln P = −L ln(1 + e^−η) and ln(1 − P).
+    fn ln_mu_pair(f: Family, eta: f64, years: f64) -> (f64, f64) {
+        match f {
+            Family::Binomial(Link::Logit) => (-(-eta).exp().ln_1p(), -eta.exp().ln_1p()),
+            Family::Binomial(Link::Probit) => (ln_phi_and_mills(eta).0, ln_phi_and_mills(-eta).0),
+            Family::Binomial(Link::Cloglog) => ((-(-eta.exp()).exp_m1()).ln(), -eta.exp()),
+            Family::Annualized => {
+                let ln_p = -years * (-eta).exp().ln_1p();
+                (ln_p, (-ln_p.exp_m1()).ln())
+            }
         }
     }
 
     #[test]
     fn value_matches_the_binomial_log_likelihood() {
-        // Derived analytically: ℓ = y ln μ + (n − y) ln(1 − μ) with μ from the link (and
-        // μ = p^L for the annualised family).
+        // ℓ = y ln μ + (n − y) ln(1 − μ) (derived analytically).
         for f in FAMILIES {
             for r in records(f) {
                 for eta in [-3.0, -0.4, 0.0, 1.3, 4.0] {
-                    let mu = f.probability(eta, r.years);
-                    let want = r.y * mu.ln() + (r.n - r.y) * (1.0 - mu).ln();
+                    let (a, b) = ln_mu_pair(f, eta, r.years);
+                    let want = r.y * a + (r.n - r.y) * b;
                     let got = f.derivatives(eta, r)[0];
-                    assert!((got - want).abs() < 1e-12 * want.abs().max(1.0), "{f:?} {eta}");
+                    assert!(
+                        (got - want).abs() < 1e-12 * want.abs().max(1.0),
+                        "{f:?} {eta}"
+                    );
                     assert_eq!(f.value_d1(eta, r).0.to_bits(), got.to_bits());
+                    assert!((f.probability(eta, r.years).ln() - a).abs() < 1e-13);
                 }
             }
         }
@@ -314,18 +419,33 @@ mod tests {
     }
 
     #[test]
-    fn probit_tail_is_continuous_and_accurate() {
-        // At the switch x = −5 both evaluations agree; Φ(−5) = 2.866515718791939e-7 (R pnorm(-5)).
-        let (lc, _) = ln_phi_and_mills(-5.0);
-        assert!((lc.exp() - 2.866515718791939e-7).abs() < 1e-21);
-        let (lc_cf, l_cf) = ln_phi_and_mills(-5.0 - 1e-12);
-        assert!((lc - lc_cf).abs() < 1e-10);
-        // R: pnorm(-40, log.p = TRUE) = -804.6084420137538.
-        let (far, l_far) = ln_phi_and_mills(-40.0);
-        assert!((far + 804.6084420137538).abs() < 1e-10);
-        // λ(x) ≈ −x for very negative x (λ(x) = −x + 1/(−x) − … ; derived from the fraction).
-        assert!((l_far - (40.0 + 1.0 / 40.0 - 2.0 / 40f64.powi(3))).abs() < 1e-6);
-        assert!(l_cf > 5.0 && l_cf < 5.2);
+    fn probit_log_probability_and_mills_ratio_are_accurate() {
+        // (x, ln Φ(x), φ(x)/Φ(x)) from mpmath 1.3.0 at 40 digits (log(ncdf(x)),
+        // npdf(x)/ncdf(x)); R 4.2.2 pnorm(-40, log.p = TRUE) = -804.6084420137538 agrees.
+        let table = [
+            (-40.0, -804.6084420137538, 40.02496884720726),
+            (-8.0, -35.01343715991455, 8.121368112236112),
+            (-5.5, -17.77937635262526, 5.671410313897305),
+            (-5.0, -15.064998393988725, 5.186503967125842),
+            (-3.0, -6.607726221510349, 3.2830986549304364),
+            (-1.0, -1.8410216450092636, 1.525135276160981),
+            (-0.6, -1.293703811614028, 1.2150257602375434),
+            (0.0, -0.6931471805599453, 0.7978845608028654),
+            (0.3, -0.4814101615884812, 0.6172208536127345),
+            (0.9, -0.2034146097557469, 0.32610889376111957),
+            (2.0, -0.02301290932896349, 0.055247862678989956),
+            (4.5, -3.397678896834466e-06, 1.5983795414617587e-05),
+            (6.0, -9.865876455243758e-10, 6.075882855817676e-09),
+            (9.0, -1.1285884059538405e-19, 1.0279773571668915e-18),
+        ];
+        for (x, ln_cdf, mills) in table {
+            let (a, b) = ln_phi_and_mills(x);
+            assert!(
+                (a - ln_cdf).abs() <= 4e-15 * ln_cdf.abs(),
+                "{x}: {a} vs {ln_cdf}"
+            );
+            assert!((b - mills).abs() <= 4e-15 * mills, "{x}: {b} vs {mills}");
+        }
     }
 
     #[test]

@@ -75,9 +75,8 @@ impl GlmmData {
         {
             return Err(bad(format!("GLMM columns must all have {n} rows")));
         }
-        let keep = |i: usize| {
-            c.weights.is_none_or(|w| w[i] > 0.0) && c.trials.is_none_or(|t| t[i] > 0.0)
-        };
+        let keep =
+            |i: usize| c.weights.is_none_or(|w| w[i] > 0.0) && c.trials.is_none_or(|t| t[i] > 0.0);
         let groups = c.plots.iter().map(|&g| g as usize + 1).max().unwrap_or(0);
         let mut count = vec![0usize; groups + 1];
         for i in (0..n).filter(|&i| keep(i)) {
@@ -154,7 +153,11 @@ impl GlmmData {
 
     /// Size of the largest plot.
     pub fn largest_plot(&self) -> usize {
-        self.starts.windows(2).map(|w| w[1] - w[0]).max().unwrap_or(0)
+        self.starts
+            .windows(2)
+            .map(|w| w[1] - w[0])
+            .max()
+            .unwrap_or(0)
     }
 
     #[inline]
@@ -283,7 +286,11 @@ impl<'a> Evaluator<'a> {
         let p = d.p;
         let mut s = Sums::default();
         if vectors {
-            for v in [&mut self.scratch.sx1, &mut self.scratch.sx2, &mut self.scratch.sx3] {
+            for v in [
+                &mut self.scratch.sx1,
+                &mut self.scratch.sx2,
+                &mut self.scratch.sx3,
+            ] {
                 v.fill(0.0);
             }
         }
@@ -296,10 +303,12 @@ impl<'a> Evaluator<'a> {
             s.d3 += w * l[3];
             if vectors {
                 let row = &d.x[i * p..(i + 1) * p];
-                for c in 0..p {
-                    self.scratch.sx1[c] += w * l[1] * row[c];
-                    self.scratch.sx2[c] += w * l[2] * row[c];
-                    self.scratch.sx3[c] += w * l[3] * row[c];
+                let (a1, a2, a3) = (w * l[1], w * l[2], w * l[3]);
+                let sc = &mut self.scratch;
+                for (c, &xv) in row.iter().enumerate() {
+                    sc.sx1[c] += a1 * xv;
+                    sc.sx2[c] += a2 * xv;
+                    sc.sx3[c] += a3 * xv;
                 }
             }
         }
@@ -322,7 +331,11 @@ impl<'a> Evaluator<'a> {
             } else {
                 return Ok((u, s));
             }
-            let newton = if h2 < 0.0 { u - h1 / h2 } else { u + h1 / inv_var };
+            let newton = if h2 < 0.0 {
+                u - h1 / h2
+            } else {
+                u + h1 / inv_var
+            };
             let scale = u.abs() + inv_var.sqrt().recip();
             if (newton - u).abs() <= 1e-10 * scale {
                 return Ok((u, s));
@@ -441,12 +454,10 @@ impl<'a> Evaluator<'a> {
         if gradient {
             let sc = &mut self.scratch;
             for c in 0..p {
-                sc.grad[c] =
-                    sc.sx1[c] + 0.5 * var * (2.0 * s.d1 * sc.sx2[c] + sc.sx3[c]);
+                sc.grad[c] = sc.sx1[c] + 0.5 * var * (2.0 * s.d1 * sc.sx2[c] + sc.sx3[c]);
             }
             sc.grad[p] = sigma * excess;
         }
         s.value + 0.5 * var * excess
     }
 }
-

@@ -150,7 +150,12 @@ pub fn fit_glmm(
     let mut iterations = 0;
     let mut hessian = Vec::new();
     for _ in 0..4 {
-        let m = run(&mut objective, at, &mut b, opts.max_iterations.saturating_sub(iterations))?;
+        let m = run(
+            &mut objective,
+            at,
+            &mut b,
+            opts.max_iterations.saturating_sub(iterations),
+        )?;
         iterations += m.iterations;
         at = m.point;
         let steps = steps_from(&b, &first_steps);
@@ -242,7 +247,11 @@ fn boundary_fit(
     }
     let covariance = SpdFactor::new(&info, p)
         .ok_or_else(|| {
-            not_converged(0, glm_ll, "the observed information of the GLM is not positive definite")
+            not_converged(
+                0,
+                glm_ll,
+                "the observed information of the GLM is not positive definite",
+            )
         })?
         .inverse();
     ev.modes.fill(0.0);

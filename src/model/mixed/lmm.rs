@@ -58,6 +58,8 @@ pub struct LmmFit {
     pub method: PlotEffectMethod,
     /// Test of σ_u > 0 between ML fits.
     pub lr_test: BoundaryLrTest,
+    /// The ML log-likelihood without the plot effect (the least-squares fit's).
+    pub ml_log_likelihood_without: f64,
     /// σ_u² / (σ_u² + σ_e²).
     pub intraclass_correlation: f64,
     /// BLUPs and their conditional SDs, in plot-code order.
@@ -102,7 +104,9 @@ impl Stats {
     fn new(x: ArrayView2<f64>, y: &[f64], plots: &[u32]) -> Result<Self, ModelError> {
         let (n, p) = x.dim();
         if y.len() != n || plots.len() != n {
-            return Err(ModelError::Invalid(format!("LMM columns must have {n} rows")));
+            return Err(ModelError::Invalid(format!(
+                "LMM columns must have {n} rows"
+            )));
         }
         let groups = plots.iter().map(|&g| g as usize + 1).max().unwrap_or(0);
         let mut size = vec![0.0; groups];
@@ -257,7 +261,10 @@ impl Stats {
     /// The maximising γ (0 at the boundary).
     fn maximise(&self, method: LmmMethod) -> Result<f64, ModelError> {
         let fail = |m: &str| ModelError::Invalid(format!("linear mixed model: {m}"));
-        let at = |g: f64| self.profile(g, method).ok_or_else(|| fail("X'V⁻¹X is singular"));
+        let at = |g: f64| {
+            self.profile(g, method)
+                .ok_or_else(|| fail("X'V⁻¹X is singular"))
+        };
         let zero = at(0.0)?;
         let mut best = (0.0, zero.ll, f64::NAN);
         let (lo, hi) = LN_GAMMA_GRID;
@@ -391,6 +398,7 @@ pub fn fit_lmm(
             LmmMethod::Ml => PlotEffectMethod::Ml,
         },
         lr_test: boundary_lr_test(ml.ll, ml0.ll),
+        ml_log_likelihood_without: ml0.ll,
         intraclass_correlation: intraclass_correlation(su, ve),
         plots,
         n_obs: s.n,

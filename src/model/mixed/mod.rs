@@ -74,7 +74,7 @@ pub struct BoundaryLrTest {
 /// T = 2(ℓ₁ − ℓ₀); p = ½ P(χ²₁ > T) for T > 0; a T ≤ 0 counts as 0 with p = 1.
 pub fn boundary_lr_test(ll_mixed: f64, ll_without: f64) -> BoundaryLrTest {
     let t = 2.0 * (ll_mixed - ll_without);
-    if !(t > 0.0) {
+    if t.is_nan() || t <= 0.0 {
         return BoundaryLrTest {
             statistic: 0.0,
             p_value: 1.0,

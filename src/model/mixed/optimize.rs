@@ -176,7 +176,8 @@ fn bfgs_update(b: &mut [f64], old: &Point, new: &Point) {
         .map(|r| (0..d).map(|c| b[r * d + c] * s[c]).sum())
         .collect();
     let sbs: f64 = s.iter().zip(&bs).map(|(a, c)| a * c).sum();
-    if !(sy > 1e-12 * sbs.abs()) || !(sbs > 0.0) {
+    let curvature_holds = sy > 1e-12 * sbs.abs() && sbs > 0.0;
+    if !curvature_holds {
         return;
     }
     for r in 0..d {
@@ -200,7 +201,11 @@ mod tests {
             value -= e.powi(4) / 4.0 + e * e / 2.0;
             gradient[i] -= e.powi(3) + e;
         }
-        Ok(Point { x: x.to_vec(), value, gradient })
+        Ok(Point {
+            x: x.to_vec(),
+            value,
+            gradient,
+        })
     }
 
     #[test]
@@ -211,7 +216,11 @@ mod tests {
         let m = maximize(&mut f, start, &mut b, 100).unwrap();
         // At the maximum every gradient component vanishes; x₂ = 2 exactly (its equation
         // decouples: −e³ − e = 0 ⇒ e = 0).
-        assert!(m.point.gradient.iter().all(|g| g.abs() < 1e-7), "{:?}", m.point);
+        assert!(
+            m.point.gradient.iter().all(|g| g.abs() < 1e-7),
+            "{:?}",
+            m.point
+        );
         assert!((m.point.x[2] - 2.0).abs() < 1e-8);
         // Derived analytically: −∂²f/∂x₂² = 3e² + 1 = 1 at e = 0, and the central difference
         // of the cubic gradient adds exactly h² = 1e-8.
