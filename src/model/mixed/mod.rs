@@ -8,6 +8,7 @@ pub mod family;
 pub mod glmm;
 pub mod glmm_fit;
 pub mod lmm;
+pub mod normal;
 pub mod optimize;
 pub mod quadrature;
 
