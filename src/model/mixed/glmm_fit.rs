@@ -5,9 +5,11 @@
 
 use serde::Serialize;
 
-use super::glmm::{Evaluator, GlmmData};
+use super::glmm::Evaluator;
+use super::glmm_data::GlmmData;
 use super::optimize::{
-    maximize, negative_hessian, steps_from, Failure, Maximum, Point, DECREMENT_TOL,
+    decrement_tolerance, maximize, negative_hessian, negative_hessian_forward, steps_from, Failure,
+    Maximum, Point,
 };
 use super::quadrature::GaussHermite;
 use super::{
@@ -109,16 +111,22 @@ pub fn fit_glmm(
     let mut ev = Evaluator::new(data, &rule);
     let theta = |sd: f64| -> Vec<f64> { start.iter().copied().chain([sd]).collect() };
     let glm_ll = ev.evaluate(&theta(0.0), false)?.value;
-    let probe = 1e-2 * super::glmm::SIGMA_SERIES;
-    let boundary_curvature = ev.evaluate(&theta(probe), true)?.gradient[p] / probe;
+    let mut scan = [0.0; START_SDS.len()];
+    for (v, sd) in scan.iter_mut().zip(START_SDS) {
+        *v = ev.evaluate(&theta(sd), false)?.value;
+    }
     let mut best = (0.0, glm_ll);
-    for sd in START_SDS {
-        let v = ev.evaluate(&theta(sd), false)?.value;
+    for (i, &v) in scan.iter().enumerate() {
         if v > best.1 {
-            best = (sd, v);
+            best = (interpolate(&scan, i), v);
         }
     }
-    if best.0 == 0.0 && boundary_curvature > 0.0 {
+    // σ = 0 is a maximum in σ when ∂²ℓ/∂σ² ≤ 0 there (the expansion of docs/mixed-models.md).
+    let mut boundary_curvature = || -> Result<f64, ModelError> {
+        let probe = 1e-2 * super::glmm::SIGMA_SERIES;
+        Ok(ev.evaluate(&theta(probe), true)?.gradient[p] / probe)
+    };
+    if best.0 == 0.0 && boundary_curvature()? > 0.0 {
         for sd in SMALL_SDS {
             let v = ev.evaluate(&theta(sd), false)?.value;
             if v > glm_ll {
@@ -144,12 +152,13 @@ pub fn fit_glmm(
             gradient: e.gradient,
         })
     };
-    let x0 = theta(best.0);
-    let mut b = negative_hessian(&mut objective, &x0, &first_steps)?;
-    let mut at = objective(&x0)?;
+    let mut at = objective(&theta(best.0))?;
+    let mut b = negative_hessian_forward(&mut objective, &at, &first_steps)?;
     let mut iterations = 0;
     let mut hessian = Vec::new();
-    for _ in 0..4 {
+    // Quasi-Newton to convergence, then the central-difference Hessian; if its Newton
+    // decrement is not yet negligible, continue from it (rarely more than once).
+    for round in 0..4 {
         let m = run(
             &mut objective,
             at,
@@ -157,7 +166,11 @@ pub fn fit_glmm(
             opts.max_iterations.saturating_sub(iterations),
         )?;
         iterations += m.iterations;
+        let stalled = round > 0 && m.iterations == 0;
         at = m.point;
+        if stalled {
+            break;
+        }
         let steps = steps_from(&b, &first_steps);
         hessian = negative_hessian(&mut objective, &at.x, &steps)?;
         b.clone_from(&hessian);
@@ -165,7 +178,7 @@ pub fn fit_glmm(
             let d = f.solve(&at.gradient);
             0.5 * d.iter().zip(&at.gradient).map(|(a, g)| a * g).sum::<f64>()
         });
-        if decrement.is_some_and(|d| d < DECREMENT_TOL) {
+        if decrement.is_some_and(|d| d < decrement_tolerance(at.value)) {
             break;
         }
     }
@@ -194,6 +207,24 @@ pub fn fit_glmm(
         opts.nodes,
         iterations,
     ))
+}
+
+/// The start σ from the scan's best grid point i: the vertex of the parabola in ln σ through
+/// it and its neighbours, kept between the neighbours (the grid point itself at an end).
+fn interpolate(scan: &[f64], i: usize) -> f64 {
+    if i == 0 || i + 1 >= scan.len() {
+        return START_SDS[i];
+    }
+    let t: Vec<f64> = START_SDS[i - 1..=i + 1].iter().map(|s| s.ln()).collect();
+    let f = &scan[i - 1..=i + 1];
+    let num = (t[1] - t[0]).powi(2) * (f[1] - f[2]) - (t[1] - t[2]).powi(2) * (f[1] - f[0]);
+    let den = (t[1] - t[0]) * (f[1] - f[2]) - (t[1] - t[2]) * (f[1] - f[0]);
+    let vertex = t[1] - 0.5 * num / den;
+    if vertex.is_finite() && vertex > t[0] && vertex < t[2] {
+        vertex.exp()
+    } else {
+        START_SDS[i]
+    }
 }
 
 /// Run the quasi-Newton maximisation, turning its failures into model errors.

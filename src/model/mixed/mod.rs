@@ -6,17 +6,20 @@
 pub mod entry;
 pub mod family;
 pub mod glmm;
+pub mod glmm_data;
 pub mod glmm_fit;
+pub(crate) mod kernels;
 pub mod lmm;
 pub mod normal;
 pub mod optimize;
 pub mod quadrature;
+pub mod simulate;
 
 use serde::Serialize;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 pub use family::Family;
-pub use glmm::{GlmmColumns, GlmmData};
+pub use glmm_data::{GlmmColumns, GlmmData};
 pub use glmm_fit::{fit_glmm, GlmmFit, GlmmOptions};
 pub use lmm::{fit_lmm, LmmFit, LmmMethod};
 pub use quadrature::{marginal_probability, GaussHermite};

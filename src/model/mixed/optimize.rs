@@ -5,8 +5,22 @@
 
 use crate::model::linalg::SpdFactor;
 
-/// Stop when the predicted increase ½ gᵀB⁻¹g falls below this (log-likelihood units).
-pub const DECREMENT_TOL: f64 = 1e-15;
+/// Stop when the predicted increase ½ gᵀB⁻¹g falls below this (log-likelihood units): the
+/// estimates are then within 1.5·10⁻⁶ standard errors of the maximum ...
+pub const DECREMENT_TOL: f64 = 1e-12;
+
+/// ... or below this fraction of |f|, the rounding noise of a sum over many records, below
+/// which no line search can see an ascent.
+pub const DECREMENT_RTOL: f64 = 1e-14;
+
+/// A failed line search counts as convergence when the predicted increase is below this many
+/// times the tolerance.
+const NOISE_FACTOR: f64 = 1e3;
+
+/// The convergence tolerance of the predicted increase at a function value `f`.
+pub fn decrement_tolerance(f: f64) -> f64 {
+    DECREMENT_TOL.max(DECREMENT_RTOL * f.abs())
+}
 
 /// Finite-difference steps are this many standard errors.
 const FD_STEP_SE: f64 = 1e-3;
@@ -69,6 +83,35 @@ pub fn negative_hessian<E>(
             h[r * d + k] = -(gu[r] - gd[r]) / (2.0 * steps[k]);
         }
     }
+    symmetrise(&mut h, d);
+    Ok(h)
+}
+
+/// −(∂²f) by forward differences of the gradient from `at`, steps `steps[k]`, symmetrised
+/// (d evaluations; a starting approximation for [`maximize`]).
+///
+/// # Errors
+/// The objective's error.
+pub fn negative_hessian_forward<E>(
+    f: &mut dyn FnMut(&[f64]) -> Result<Point, E>,
+    at: &Point,
+    steps: &[f64],
+) -> Result<Vec<f64>, E> {
+    let d = at.x.len();
+    let mut h = vec![0.0; d * d];
+    for k in 0..d {
+        let mut up = at.x.clone();
+        up[k] += steps[k];
+        let gu = f(&up)?.gradient;
+        for r in 0..d {
+            h[r * d + k] = -(gu[r] - at.gradient[r]) / steps[k];
+        }
+    }
+    symmetrise(&mut h, d);
+    Ok(h)
+}
+
+fn symmetrise(h: &mut [f64], d: usize) {
     for r in 0..d {
         for c in 0..r {
             let m = 0.5 * (h[r * d + c] + h[c * d + r]);
@@ -76,7 +119,6 @@ pub fn negative_hessian<E>(
             h[c * d + r] = m;
         }
     }
-    Ok(h)
 }
 
 /// Finite-difference steps of [`FD_STEP_SE`] standard errors from a negative Hessian
@@ -112,7 +154,7 @@ fn damped(b: &[f64], d: usize) -> Option<SpdFactor> {
 }
 
 /// Maximise f from `start` with the negative Hessian approximation `b` (row-major, updated
-/// in place by BFGS), until the predicted increase is below [`DECREMENT_TOL`].
+/// in place by BFGS), until the predicted increase is below [`decrement_tolerance`].
 ///
 /// # Errors
 /// [`Failure`] with the last point when the line search or the iteration limit fails.
@@ -130,7 +172,8 @@ pub fn maximize<E>(
         };
         let dir = factor.solve(&at.gradient);
         let slope: f64 = dir.iter().zip(&at.gradient).map(|(a, g)| a * g).sum();
-        if !(slope.is_finite()) || 0.5 * slope < DECREMENT_TOL {
+        let tol = decrement_tolerance(at.value);
+        if !(slope.is_finite()) || 0.5 * slope < tol {
             return Ok(Maximum {
                 point: at,
                 iterations: iteration,
@@ -138,7 +181,8 @@ pub fn maximize<E>(
         }
         let mut alpha = 1.0;
         let mut next = None;
-        for _ in 0..MAX_HALVINGS {
+        let near = 0.5 * slope < NOISE_FACTOR * tol;
+        for _ in 0..if near { 3 } else { MAX_HALVINGS } {
             let x: Vec<f64> = at.x.iter().zip(&dir).map(|(a, s)| a + alpha * s).collect();
             match f(&x) {
                 Ok(pt) if pt.value >= at.value + ARMIJO * alpha * slope => {
@@ -151,6 +195,12 @@ pub fn maximize<E>(
             }
         }
         let Some(next) = next else {
+            if near {
+                return Ok(Maximum {
+                    point: at,
+                    iterations: iteration,
+                });
+            }
             return Err(Failure::LineSearch(at));
         };
         bfgs_update(b, &at, &next);
@@ -215,13 +265,14 @@ mod tests {
         let mut b = negative_hessian(&mut f, &start.x, &[1e-4; 3]).unwrap();
         let m = maximize(&mut f, start, &mut b, 100).unwrap();
         // At the maximum every gradient component vanishes; x₂ = 2 exactly (its equation
-        // decouples: −e³ − e = 0 ⇒ e = 0).
+        // decouples: −e³ − e = 0 ⇒ e = 0). The stopping rule ½gᵀB⁻¹g < 1e-12 (B ≈ identity
+        // here) leaves |g| ≲ 1.5e-6.
         assert!(
-            m.point.gradient.iter().all(|g| g.abs() < 1e-7),
+            m.point.gradient.iter().all(|g| g.abs() < 2e-6),
             "{:?}",
             m.point
         );
-        assert!((m.point.x[2] - 2.0).abs() < 1e-8);
+        assert!((m.point.x[2] - 2.0).abs() < 2e-6);
         // Derived analytically: −∂²f/∂x₂² = 3e² + 1 = 1 at e = 0, and the central difference
         // of the cubic gradient adds exactly h² = 1e-8.
         let h = negative_hessian(&mut f, &m.point.x, &[1e-4; 3]).unwrap();
