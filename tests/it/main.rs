@@ -1,0 +1,6 @@
+//! The integration tests: one binary, one module per topic.
+#[path = "../common/mod.rs"]
+mod common;
+mod mixed_glmm;
+mod mixed_lmm;
+mod mixed_support;
