@@ -3,4 +3,5 @@
 mod common;
 mod mixed_glmm;
 mod mixed_lmm;
+mod mixed_properties;
 mod mixed_support;

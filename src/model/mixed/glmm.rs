@@ -180,7 +180,25 @@ fn mode(
         };
         let scale = u.abs() + inv_var.sqrt().recip();
         if (newton - u).abs() <= 1e-10 * scale {
-            return Ok((u, s));
+            // Take the last (tiny) Newton step and carry the sums to the new point to first
+            // order, so that the mode and the curvature are exact to O(step²).
+            if h2 >= 0.0 {
+                return Ok((u, s));
+            }
+            let step = newton - u;
+            if vectors {
+                for c in 0..d.p {
+                    sc.sx1[c] += step * sc.sx2[c];
+                    sc.sx2[c] += step * sc.sx3[c];
+                }
+            }
+            let moved = Sums {
+                value: s.value,
+                d1: s.d1 + step * s.d2,
+                d2: s.d2 + step * s.d3,
+                d3: s.d3,
+            };
+            return Ok((newton, moved));
         }
         // Outside the bracket of sign changes of h′, bisect (once both ends are known).
         let next = if (newton > lo && newton < hi) || !(lo.is_finite() && hi.is_finite()) {
