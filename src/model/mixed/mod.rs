@@ -10,6 +10,7 @@ pub mod glmm_data;
 pub mod glmm_fit;
 pub(crate) mod kernels;
 pub mod lmm;
+mod lmm_profile;
 pub mod normal;
 pub mod optimize;
 pub mod quadrature;
