@@ -9,7 +9,7 @@ use super::glmm::Evaluator;
 use super::glmm_data::GlmmData;
 use super::optimize::{
     decrement_tolerance, maximize, negative_hessian, negative_hessian_forward, steps_from, Failure,
-    Maximum, Point,
+    Point,
 };
 use super::quadrature::GaussHermite;
 use super::{
@@ -19,6 +19,9 @@ use super::{
 use crate::model::glm::wald;
 use crate::model::linalg::SpdFactor;
 use crate::model::ModelError;
+
+/// Quasi-Newton iterations between refreshes of the Hessian by finite differences.
+const ROUND: usize = 15;
 
 /// Plot-effect SDs tried as starting points (with β from the GLM).
 const START_SDS: [f64; 4] = [0.1, 0.3, 1.0, 3.0];
@@ -152,25 +155,38 @@ pub fn fit_glmm(
             gradient: e.gradient,
         })
     };
-    let mut at = objective(&theta(best.0))?;
+    let x0 = theta(best.0);
+    let mut at = objective(&x0)?;
     let mut b = negative_hessian_forward(&mut objective, &at, &first_steps)?;
     let mut iterations = 0;
-    let mut hessian = Vec::new();
-    // Quasi-Newton to convergence, then the central-difference Hessian; if its Newton
-    // decrement is not yet negligible, continue from it (rarely more than once).
-    for round in 0..4 {
-        let m = run(
-            &mut objective,
-            at,
-            &mut b,
-            opts.max_iterations.saturating_sub(iterations),
-        )?;
-        iterations += m.iterations;
-        let stalled = round > 0 && m.iterations == 0;
-        at = m.point;
-        if stalled {
-            break;
+    let mut hessian;
+    // Quasi-Newton in rounds of at most ROUND iterations; after each, the central-difference
+    // Hessian replaces the BFGS matrix. The fit ends when a round converges and that Hessian's
+    // Newton decrement is negligible too.
+    loop {
+        let budget = ROUND.min(opts.max_iterations.saturating_sub(iterations));
+        if budget == 0 {
+            return Err(not_converged(
+                iterations,
+                at.value,
+                "the iteration limit was reached",
+            ));
         }
+        let (point, used, converged) = match maximize(&mut objective, at, &mut b, budget) {
+            Ok(m) => (m.point, m.iterations, true),
+            Err(Failure::Iterations(pt)) => (pt, budget, false),
+            Err(Failure::LineSearch(pt)) if iterations > 0 || pt.x != x0 => (pt, 1, false),
+            Err(Failure::LineSearch(pt)) => {
+                return Err(not_converged(
+                    iterations,
+                    pt.value,
+                    "the line search found no ascent",
+                ))
+            }
+            Err(Failure::Objective(e)) => return Err(e),
+        };
+        iterations += used;
+        at = point;
         let steps = steps_from(&b, &first_steps);
         hessian = negative_hessian(&mut objective, &at.x, &steps)?;
         b.clone_from(&hessian);
@@ -178,7 +194,8 @@ pub fn fit_glmm(
             let d = f.solve(&at.gradient);
             0.5 * d.iter().zip(&at.gradient).map(|(a, g)| a * g).sum::<f64>()
         });
-        if decrement.is_some_and(|d| d < decrement_tolerance(at.value)) {
+        let small = decrement.is_some_and(|d| d < decrement_tolerance(at.value));
+        if small || (converged && used == 0 && iterations > 0) {
             break;
         }
     }
@@ -225,24 +242,6 @@ fn interpolate(scan: &[f64], i: usize) -> f64 {
     } else {
         START_SDS[i]
     }
-}
-
-/// Run the quasi-Newton maximisation, turning its failures into model errors.
-fn run(
-    objective: &mut dyn FnMut(&[f64]) -> Result<Point, ModelError>,
-    at: Point,
-    b: &mut [f64],
-    budget: usize,
-) -> Result<Maximum, ModelError> {
-    maximize(objective, at, b, budget).map_err(|f| match f {
-        Failure::Objective(e) => e,
-        Failure::LineSearch(pt) => {
-            not_converged(budget, pt.value, "the line search found no ascent")
-        }
-        Failure::Iterations(pt) => {
-            not_converged(budget, pt.value, "the iteration limit was reached")
-        }
-    })
 }
 
 /// σ_u = 0 maximises the likelihood: β is the GLM's, and the covariance is the inverse
