@@ -141,7 +141,8 @@ pub struct SurvivalModelArgs {
     #[arg(long, value_enum, default_value = "fixed")]
     pub(crate) interval: IntervalArg,
     /// Give up (exit code 1) after this many iterations (IRLS solves or Newton steps), like R's
-    /// glm.control(maxit). Default 50.
+    /// glm.control(maxit). Default 50; a --plot-effect fit allows 4 times as many quasi-Newton
+    /// steps.
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
     pub(crate) max_iterations: Option<u32>,
 }
