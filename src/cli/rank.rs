@@ -5,7 +5,9 @@ use stemcast::fit::rank::{rank, RankSpec};
 use stemcast::fit::rank_render::{rank_csv, rank_json, rank_text};
 use stemcast::Error;
 
-use super::fit_args::{control, survival_spec, DataArgs, SurvivalModelArgs};
+use stemcast::fit::mixed::SurvivalPlotEffect;
+
+use super::fit_args::{control, survival_spec, DataArgs, PlotEffectArgs, SurvivalModelArgs};
 
 /// Output format of the ranking.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -35,6 +37,12 @@ pub struct RankArgs {
     seed: u64,
     #[command(flatten)]
     model: SurvivalModelArgs,
+    #[command(flatten)]
+    plot_effect: PlotEffectArgs,
+    /// Quadrature nodes per plot for --plot-effect (1 = Laplace).
+    #[arg(long, value_name = "K", default_value_t = 15,
+          value_parser = clap::value_parser!(u32).range(1..=100))]
+    quadrature: u32,
     /// Output format on standard output.
     #[arg(long, value_enum, default_value = "text")]
     format: RankFormat,
@@ -47,6 +55,10 @@ log-likelihood, AIC, ΔAIC, Akaike weight exp(-ΔAIC/2) normalised over the cand
 (null for weighted or successes/trials data) and the cross-validated log-loss: stands are
 shuffled with --seed and dealt to --folds folds; each fold is predicted from a fit on the
 others. Candidates whose columns are a subset of another's get a likelihood-ratio test.
+With --plot-effect every candidate is also fitted with a random plot intercept (\"<predictors>
++ plot effect\", k counts its SD) on the same records; its held-out stands are predicted as new
+plots (marginal probabilities), and its test against the same predictors without the plot
+effect has the boundary-corrected p-value (0.5 chi2(0) + 0.5 chi2(1)).
 Write the CSV or JSON to a file with shell redirection (stemcast rank ... --format csv > r.csv).";
 
 /// Run `rank`.
@@ -57,6 +69,13 @@ pub fn run(a: RankArgs) -> Result<(), Error> {
         folds: a.folds,
         seed: a.seed,
         control: control(&a.model),
+        plot_effect: a
+            .plot_effect
+            .column(&a.data)
+            .map(|plot| SurvivalPlotEffect {
+                plot,
+                nodes: a.quadrature as usize,
+            }),
     };
     let ranking = rank(&spec)?;
     match a.format {

@@ -14,6 +14,7 @@ pub mod load;
 pub mod mixed;
 pub mod mixed_summary;
 pub mod rank;
+pub mod rank_mixed;
 pub mod rank_render;
 pub mod summary;
 pub mod survival;

@@ -358,3 +358,70 @@ fn plot_effect_tables_are_validated() {
     );
     refused(&format!("{base}[plot_effect]\nmethod = \"agq\"\n"), "sd");
 }
+
+#[test]
+fn rank_compares_candidates_with_and_without_the_plot_effect() {
+    // Reference: tests/fixtures/glmm/tree_survival_logit.json, block `agq15` (ℓ and AIC of
+    // alive ~ dbh + bal + (1 | plot)); the boundary-corrected p-value is ½P(χ²₁ > G)
+    // (docs/mixed-models.md), here checked against the row's own likelihoods.
+    let sb = Sandbox::new();
+    let csv = path("glmm/tree_survival.csv");
+    let j = json(
+        &sb,
+        &[
+            "rank",
+            &csv,
+            "--candidates",
+            "dbh",
+            "dbh, bal",
+            "--stand",
+            "plot",
+            "--plot-effect",
+            "--folds",
+            "4",
+            "--format",
+            "json",
+        ],
+    );
+    let e = &reference("glmm/tree_survival_logit.json")["expected"]["agq15"];
+    let rows = j["candidates"].as_array().unwrap();
+    assert_eq!(rows.len(), 4);
+    let mixed = rows
+        .iter()
+        .find(|r| r["predictors"] == "dbh, bal + plot effect")
+        .unwrap();
+    assert_eq!(mixed["k"], 4);
+    assert_close(
+        "ℓ",
+        &[mixed["log_likelihood"].as_f64().unwrap()],
+        &[e["log_likelihood"].as_f64().unwrap()],
+        0.0,
+        1e-6,
+    );
+    assert_close(
+        "AIC",
+        &[mixed["aic"].as_f64().unwrap()],
+        &[e["aic"].as_f64().unwrap()],
+        0.0,
+        2e-6,
+    );
+    assert!(mixed["cv_log_loss"].as_f64().unwrap() > 0.0);
+    let glm = rows.iter().find(|r| r["predictors"] == "dbh, bal").unwrap();
+    let test = j["nested_lr_tests"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|t| t["full"] == "dbh, bal + plot effect")
+        .unwrap();
+    let g =
+        2.0 * (mixed["log_likelihood"].as_f64().unwrap() - glm["log_likelihood"].as_f64().unwrap());
+    assert!((test["statistic"].as_f64().unwrap() - g).abs() < 1e-9);
+    use statrs::distribution::{ChiSquared, ContinuousCDF};
+    let half = 0.5 * ChiSquared::new(1.0).unwrap().sf(g);
+    assert!((test["p_value"].as_f64().unwrap() - half).abs() < 1e-12 * half.max(1e-300));
+    let weights: f64 = rows
+        .iter()
+        .map(|r| r["akaike_weight"].as_f64().unwrap())
+        .sum();
+    assert!((weights - 1.0).abs() < 1e-12);
+}

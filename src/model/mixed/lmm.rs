@@ -2,7 +2,7 @@
 //! ML. β and σ_e² are profiled out in closed form; the remaining one-dimensional problem in
 //! the variance ratio γ = σ_u²/σ_e² is solved by a scan over ln γ and a safeguarded root
 //! search of the profile's derivative, with γ = 0 (no plot effect) checked separately.
-//! See docs/mixed-models.md, "The linear mixed model".
+//! See docs/mixed-models.md, "The growth model (linear mixed model)".
 
 use ndarray::ArrayView2;
 use serde::Serialize;

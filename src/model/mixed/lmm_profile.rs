@@ -1,7 +1,7 @@
 //! The profiled likelihood of the random-intercept LMM: sufficient statistics (within-plot
 //! centred data and plot means) and, for one variance ratio γ = σ_u²/σ_e², the GLS estimate,
 //! the minimised quadratic form and the REML or ML log-likelihood with its derivative in γ.
-//! See docs/mixed-models.md, "The linear mixed model".
+//! See docs/mixed-models.md, "The growth model (linear mixed model)".
 
 use ndarray::ArrayView2;
 
