@@ -79,7 +79,7 @@ impl Family {
     }
 
     /// The probability of a response of 1 at η (for the annualised family, over `years`);
-    /// probit uses [`ln_phi_and_mills`], which is more precise than the link's `Φ`.
+    /// probit uses ln Φ of `normal.rs`, which is more precise than the link's `Φ`.
     pub fn probability(self, eta: f64, years: f64) -> f64 {
         match self {
             Family::Binomial(Link::Probit) => ln_phi_and_mills(eta).0.exp(),

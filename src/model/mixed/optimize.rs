@@ -121,7 +121,7 @@ fn symmetrise(h: &mut [f64], d: usize) {
     }
 }
 
-/// Finite-difference steps of [`FD_STEP_SE`] standard errors from a negative Hessian
+/// Finite-difference steps of 10⁻³ standard errors from a negative Hessian
 /// (falling back to `fallback` where it is not positive definite).
 pub fn steps_from(b: &[f64], fallback: &[f64]) -> Vec<f64> {
     let d = fallback.len();
