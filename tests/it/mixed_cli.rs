@@ -425,3 +425,28 @@ fn rank_compares_candidates_with_and_without_the_plot_effect() {
         .sum();
     assert!((weights - 1.0).abs() < 1e-12);
 }
+
+#[test]
+fn one_record_per_plot_is_refused() {
+    // Derived analytically: with one record per plot, V_j = σ_u² + σ_e² and the REML
+    // likelihood depends on the sum only, so the plot effect is not identified.
+    let sb = Sandbox::new();
+    let rows: String = (0..30)
+        .map(|i| format!("{i},{},{}\n", 1.0 + 0.3 * (i % 7) as f64, i % 5))
+        .collect();
+    let file = sb.write("one.csv", &format!("plot,y,x\n{rows}"));
+    let out = sb.run(&[
+        "fit",
+        "growth",
+        file.to_str().unwrap(),
+        "--response-col",
+        "y",
+        "--predictors",
+        "x",
+        "--plot-effect",
+        "--stand",
+        "plot",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(stderr(&out).contains("single record"), "{}", stderr(&out));
+}

@@ -262,3 +262,29 @@ fn the_gradient_matches_central_differences_for_every_family() {
         }
     }
 }
+
+#[test]
+fn single_binary_records_per_plot_are_refused() {
+    // Derived analytically: with one 0/1 record per plot the marginal probability
+    // ∫F(η + u)φ(u; 0, σ)du is itself a binary GLM (for probit exactly Φ(η/√(1 + σ²))), so σ
+    // trades off against the scale of β and is not identified.
+    let sim = simulate_glmm(
+        &GlmmSimulation {
+            plots: 200,
+            trees: 1,
+            ..Default::default()
+        },
+        2,
+    )
+    .expect("simulation");
+    let d = data(
+        Family::Binomial(Link::Logit),
+        &sim.x,
+        &sim.y,
+        &sim.plots,
+        &[],
+    );
+    let start = glm_start(&sim.x, &sim.y, Link::Logit);
+    let e = fit_glmm(&d, &start.0, &start.1, &GlmmOptions::default()).unwrap_err();
+    assert!(e.to_string().contains("single 0/1 record"), "{e}");
+}

@@ -147,6 +147,11 @@ impl GlmmData {
         self.y.len()
     }
 
+    /// True when every plot holds one record of one trial (σ is then not identified).
+    pub fn single_binary_records(&self) -> bool {
+        self.starts.windows(2).all(|w| w[1] - w[0] == 1) && self.trials.iter().all(|&n| n <= 1.0)
+    }
+
     /// Size of the largest plot.
     pub fn largest_plot(&self) -> usize {
         self.starts

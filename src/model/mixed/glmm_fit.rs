@@ -110,6 +110,11 @@ pub fn fit_glmm(
     opts: &GlmmOptions,
 ) -> Result<GlmmFit, ModelError> {
     let p = data.p;
+    if data.single_binary_records() {
+        return Err(ModelError::Invalid(
+            "every plot has a single 0/1 record, so a plot effect cannot be told from the link's own variation; fit without --plot-effect".into(),
+        ));
+    }
     let rule = GaussHermite::new(opts.nodes).map_err(ModelError::Invalid)?;
     let mut ev = Evaluator::new(data, &rule);
     let theta = |sd: f64| -> Vec<f64> { start.iter().copied().chain([sd]).collect() };

@@ -157,6 +157,11 @@ pub fn fit_lmm(
     method: LmmMethod,
 ) -> Result<LmmFit, ModelError> {
     let s = Stats::new(x, y, plots)?;
+    if s.size.iter().all(|&n| n < 2.0) {
+        return Err(ModelError::Invalid(
+            "every plot has a single record, so a plot effect cannot be told from the residual; fit without --plot-effect".into(),
+        ));
+    }
     if s.n <= s.p + 1 {
         return Err(ModelError::Invalid(format!(
             "{} records cannot estimate {} coefficients and two variances",
