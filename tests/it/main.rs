@@ -4,5 +4,6 @@ mod common;
 mod mixed_cli;
 mod mixed_glmm;
 mod mixed_lmm;
+mod mixed_options;
 mod mixed_properties;
 mod mixed_support;
