@@ -1,6 +1,13 @@
 //! Fitting a survival GLMM (docs/mixed-models.md): 100,000 trees in 2,000 plots of 50, logit,
 //! random plot intercept, adaptive Gauss–Hermite quadrature with 15 nodes, started from the
 //! GLM (whose fit is included). Target: under 2 s per fit.
+//!
+//! Measured on the two-core development machine (load average about 5 from other work):
+//! median 0.38 s (criterion, 10 samples), σ̂ = 0.607272 (true 0.6), 5 quasi-Newton
+//! iterations. R 4.2.2 lme4 1.1-31 `glmer(alive ~ dbh + bal + (1 | plot), binomial)` on the
+//! same data written to CSV took 31.8 s with `nAGQ = 1` and 62.0 s with `nAGQ = 15` on the
+//! same machine at the same time, both with convergence warnings (σ̂ = 0.6072729 for
+//! nAGQ = 15).
 
 use std::time::Duration;
 
