@@ -53,6 +53,7 @@ fn rank_fit_1m(c: &mut Criterion) {
     let path = dir.path().join("fit1m.csv");
     std::fs::write(&path, fit_1m_csv(1_000_000, 20_240_501)).expect("write CSV");
     let spec = RankSpec {
+        plot_effect: None,
         survival: SurvivalSpec {
             data: DataOptions {
                 path,

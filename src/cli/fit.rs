@@ -6,15 +6,19 @@ use std::path::{Path, PathBuf};
 use clap::Subcommand;
 use stemcast::data::flags_csv;
 use stemcast::fit::estimate::Estimator;
-use stemcast::fit::growth::{fit_growth, GrowthSpec, GrowthTarget};
+use stemcast::fit::growth::{fit_growth_with, GrowthSpec, GrowthTarget};
+use stemcast::fit::growth_mixed::{GrowthOptions, GrowthPlotEffect};
+use stemcast::fit::mixed::SurvivalPlotEffect;
 use stemcast::fit::source::Screening;
 use stemcast::fit::summary;
 use stemcast::fit::survival::{fit_survival_with, FitOptions, SurvivalResponse, SurvivalSpec};
 use stemcast::model::file::{GrowthResponse, ModelFile};
+use stemcast::model::mixed::LmmMethod;
 use stemcast::Error;
 
 use super::fit_args::{
-    control, data_options, survival_spec, years, Format, GrowthArgs, ResponseArg, SurvivalArgs,
+    control, data_options, survival_spec, years, Format, GrowthArgs, LmmMethodArg, ResponseArg,
+    SurvivalArgs,
 };
 
 /// Which model to fit.
@@ -72,6 +76,13 @@ fn survival(a: SurvivalArgs) -> Result<(), Error> {
         dbh_classes: a.dbh_classes.clone(),
         curves: a.calibration_svg.is_some(),
         control: control(&a.model),
+        plot_effect: a
+            .plot_effect
+            .column(&a.common.data)
+            .map(|plot| SurvivalPlotEffect {
+                plot,
+                nodes: a.quadrature as usize,
+            }),
     };
     if a.calibration_svg.is_some() {
         check_svg_possible(&spec)?;
@@ -133,7 +144,20 @@ pub fn run(cmd: FitCommand) -> Result<(), Error> {
                 target,
                 years: years(&a.common.data),
             };
-            let fit = fit_growth(&spec)?;
+            let opts = GrowthOptions {
+                cluster: a.cluster.clone(),
+                plot_effect: a
+                    .plot_effect
+                    .column(&a.common.data)
+                    .map(|plot| GrowthPlotEffect {
+                        plot,
+                        method: match a.method {
+                            LmmMethodArg::Reml => LmmMethod::Reml,
+                            LmmMethodArg::Ml => LmmMethod::Ml,
+                        },
+                    }),
+            };
+            let fit = fit_growth_with(&spec, &opts)?;
             write_model(&a.common.out, &fit.model, &a.common.data.data)?;
             write_screen(&a.common.data.input.screen, &fit.screening)?;
             let source = a.common.data.data.display().to_string();

@@ -157,7 +157,8 @@ pub struct SurvivalModelArgs {
     #[arg(long, value_enum, default_value = "fixed")]
     pub(crate) interval: IntervalArg,
     /// Give up (exit code 1) after this many iterations (IRLS solves or Newton steps), like R's
-    /// glm.control(maxit). Default 50.
+    /// glm.control(maxit). Default 50; a --plot-effect fit allows 4 times as many quasi-Newton
+    /// steps.
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
     pub(crate) max_iterations: Option<u32>,
 }
@@ -179,8 +180,8 @@ pub struct SurvivalArgs {
     #[command(flatten)]
     pub(crate) model: SurvivalModelArgs,
     /// Cluster-robust (CR1 sandwich) covariance by this column, e.g. the plot: trees in one
-    /// plot are not independent. The summary, JSON and model file then carry it. Ordinary
-    /// GLM fits only (not with --firth or --interval annualized).
+    /// plot are not independent. The summary, JSON and model file then carry it. Every
+    /// interval kind; not with --firth or --plot-effect.
     #[arg(long, value_name = "COL")]
     pub(crate) cluster: Option<String>,
     /// Firth's penalised likelihood (logit link only): finite estimates under separation.
@@ -198,6 +199,42 @@ pub struct SurvivalArgs {
     /// covariates at their mean or reference level) to this SVG file.
     #[arg(long, value_name = "FILE")]
     pub(crate) calibration_svg: Option<PathBuf>,
+    #[command(flatten)]
+    pub(crate) plot_effect: PlotEffectArgs,
+    /// Quadrature nodes per plot for --plot-effect: adaptive Gauss–Hermite quadrature centred
+    /// at each plot's conditional mode; 1 is the Laplace approximation.
+    #[arg(long, value_name = "K", default_value_t = 15,
+          value_parser = clap::value_parser!(u32).range(1..=100))]
+    pub(crate) quadrature: u32,
+}
+
+/// The random plot intercept (docs/mixed-models.md): shared by both fits.
+#[derive(Debug, Args)]
+pub struct PlotEffectArgs {
+    /// Fit a random intercept per plot (a mixed model): binomial GLMM for survival, linear
+    /// mixed model for growth. The summary gains σ_u, its likelihood-ratio test, the
+    /// intraclass correlation and each plot's conditional mode and SD.
+    #[arg(long)]
+    pub(crate) plot_effect: bool,
+}
+
+impl PlotEffectArgs {
+    /// The plot column when a plot effect is asked for: `--plot`, else the stand column.
+    pub(crate) fn column(&self, data: &DataArgs) -> Option<String> {
+        self.plot_effect.then(|| {
+            data.input
+                .plot
+                .clone()
+                .unwrap_or_else(|| data.stand.clone())
+        })
+    }
+}
+
+/// How the growth LMM is estimated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub(crate) enum LmmMethodArg {
+    Reml,
+    Ml,
 }
 
 /// The diagnostics section of `fit survival --help`.
@@ -235,6 +272,14 @@ pub struct GrowthArgs {
     /// Regress this column as it is (the model cannot be projected).
     #[arg(long, value_name = "COL")]
     pub(crate) response_col: Option<String>,
+    /// Cluster-robust (CR1 sandwich) covariance by this column, e.g. the plot.
+    #[arg(long, value_name = "COL", conflicts_with = "plot_effect")]
+    pub(crate) cluster: Option<String>,
+    #[command(flatten)]
+    pub(crate) plot_effect: PlotEffectArgs,
+    /// Estimation of --plot-effect: REML (default) or ML (to compare fixed effects by AIC).
+    #[arg(long, value_enum, default_value = "reml", requires = "plot_effect")]
+    pub(crate) method: LmmMethodArg,
 }
 
 pub(crate) fn data_options(

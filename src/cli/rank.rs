@@ -10,8 +10,11 @@ use stemcast::fit::rank_render::{rank_csv, rank_json, rank_text};
 use stemcast::model::file::GrowthResponse;
 use stemcast::Error;
 
+use stemcast::fit::mixed::SurvivalPlotEffect;
+
 use super::fit_args::{
-    control, data_options, survival_spec, years, DataArgs, ResponseArg, SurvivalModelArgs,
+    control, data_options, survival_spec, years, DataArgs, PlotEffectArgs, ResponseArg,
+    SurvivalModelArgs,
 };
 
 /// Output format of the ranking.
@@ -54,6 +57,12 @@ pub struct RankArgs {
     /// with --history).
     #[arg(long, value_name = "COL", requires = "growth")]
     dbh2: Option<String>,
+    #[command(flatten)]
+    plot_effect: PlotEffectArgs,
+    /// Quadrature nodes per plot for --plot-effect (1 = Laplace).
+    #[arg(long, value_name = "K", default_value_t = 15,
+          value_parser = clap::value_parser!(u32).range(1..=100))]
+    quadrature: u32,
     /// Output format on standard output.
     #[arg(long, value_enum, default_value = "text")]
     format: RankFormat,
@@ -70,6 +79,10 @@ likelihood-ratio test. A --reference applies to the candidates that use its vari
 With --growth the candidates are growth models fitted by least squares on --response: the
 columns are k, log-likelihood, AIC, ΔAIC, weight, BIC (AIC and BIC count σ), adjusted R²,
 residual SD and the cross-validated RMSE of the response, and nested pairs get F-tests.
+With --plot-effect every survival candidate is also fitted with a random plot intercept
+(\"<predictors> + plot effect\", k counts its SD) on the same records; its held-out plots are
+predicted as new plots (marginal probabilities), and its test against the same predictors
+without the plot effect has the boundary-corrected p-value (0.5 chi2(0) + 0.5 chi2(1)).
 Write the CSV or JSON to a file with shell redirection (stemcast rank ... --format csv > r.csv).";
 
 /// Run `rank`.
@@ -83,6 +96,13 @@ pub fn run(a: RankArgs) -> Result<(), Error> {
         folds: a.folds,
         seed: a.seed,
         control: control(&a.model),
+        plot_effect: a
+            .plot_effect
+            .column(&a.data)
+            .map(|plot| SurvivalPlotEffect {
+                plot,
+                nodes: a.quadrature as usize,
+            }),
     };
     let ranking = rank(&spec)?;
     super::fit::write_screen(&a.data.input.screen, &ranking.screening)?;

@@ -1,8 +1,7 @@
 //! `fit growth`: from a remeasurement CSV to a fitted diameter-growth model and its model file.
 
-use ndarray::Array1;
-
 pub use super::growth_load::{load_growth, GrowthData};
+use super::growth_mixed::{adjust, GrowthOptions};
 use super::source::Screening;
 use super::{term_needs, DataOptions, Years};
 use crate::data::RemeasureCounts;
@@ -53,8 +52,14 @@ impl GrowthSpec {
 /// A fitted growth model.
 #[derive(Debug, Clone)]
 pub struct GrowthFit {
-    /// The OLS result.
+    /// The OLS result (with a plot effect: the mixed model's estimates in the same shape).
     pub ols: OlsFit,
+    /// Model-based or cluster-robust covariance.
+    pub covariance_kind: CovarianceKind,
+    /// Clusters of a cluster-robust covariance.
+    pub n_clusters: Option<usize>,
+    /// The plot effect of a mixed model.
+    pub plot_effect: Option<super::mixed::PlotEffectSummary>,
     /// The response kind.
     pub response: GrowthResponse,
     /// The period the model describes (None: not projectable).
@@ -76,8 +81,23 @@ pub struct GrowthFit {
 /// # Errors
 /// Bad data or terms (exit code 2), rank deficiency (2).
 pub fn fit_growth(spec: &GrowthSpec) -> Result<GrowthFit, Error> {
-    let data = load_growth(spec, std::slice::from_ref(&spec.predictors), None)?;
-    fit_growth_loaded(spec, &data, &spec.predictors)
+    fit_growth_with(spec, &GrowthOptions::default())
+}
+
+/// Fit the growth model described by `spec` with the covariance and plot-effect options of
+/// `opts` (`--cluster`, `--plot-effect`).
+///
+/// # Errors
+/// Bad data, terms or options (exit code 2), rank deficiency (2); a mixed model whose
+/// residual variance vanishes (1).
+pub fn fit_growth_with(spec: &GrowthSpec, opts: &GrowthOptions) -> Result<GrowthFit, Error> {
+    let data = load_growth(
+        spec,
+        std::slice::from_ref(&spec.predictors),
+        None,
+        &opts.columns(),
+    )?;
+    fit_growth_loaded(spec, &data, &spec.predictors, opts)
 }
 
 /// Fit `predictors` on growth records already loaded (the fit stage of [`fit_growth`]).
@@ -88,6 +108,7 @@ pub fn fit_growth_loaded(
     spec: &GrowthSpec,
     data: &GrowthData,
     predictors: &str,
+    opts: &GrowthOptions,
 ) -> Result<GrowthFit, Error> {
     let needs = term_needs(predictors, &spec.data)?;
     let mut warnings = data.warnings.clone();
@@ -106,10 +127,12 @@ pub fn fit_growth_loaded(
     warnings.extend(design.warnings.iter().cloned());
     let ols = fit_ols(
         design.x.view(),
-        Array1::from(data.y.clone()).view(),
+        ndarray::ArrayView1::from(&data.y),
         &design.names,
         design.intercept,
     )?;
+    let adjusted = adjust(ols, design.x.view(), &data.y, &data.records.frame, opts)?;
+    let ols = adjusted.ols;
     let model = ModelFile {
         kind: ModelKind::Growth,
         link: None,
@@ -136,7 +159,7 @@ pub fn fit_growth_loaded(
             .collect(),
         categorical: design.categorical.clone(),
         covariance: Some(CovarianceEntry {
-            kind: CovarianceKind::Model,
+            kind: adjusted.kind,
             terms: ols.names.clone(),
             matrix: ols.covariance.clone(),
         }),
@@ -144,20 +167,27 @@ pub fn fit_growth_loaded(
             records: Some(ols.records as u64),
             source: Some(spec.data.path.display().to_string()),
             source_sha256: Some(data.records.sha256.clone()),
-            method: Some("least_squares".to_string()),
+            method: Some(match &adjusted.plot_effect {
+                Some(pe) => pe.method.name().to_string(),
+                None => "least_squares".to_string(),
+            }),
             predictors: Some(predictors.to_string()),
             log_likelihood: Some(ols.log_likelihood),
             aic: Some(ols.aic),
             bic: Some(ols.bic),
-            r_squared: Some(ols.r_squared),
+            r_squared: Some(ols.r_squared).filter(|r| r.is_finite()),
             ranges: design.ranges.clone(),
             flagged_records: data.screening.file_count(),
             flagged_left_out: data.screening.file_left_out(),
             ..FitInfo::default()
         }),
+        plot_effect: adjusted.plot_effect.as_ref().map(|p| p.model_entry()),
     };
     Ok(GrowthFit {
         ols,
+        covariance_kind: adjusted.kind,
+        n_clusters: adjusted.n_clusters,
+        plot_effect: adjusted.plot_effect,
         response,
         period_years: model.period_years,
         counts: data.records.counts,

@@ -35,7 +35,8 @@ pub struct GrowthData {
 }
 
 /// Load the growth records of `spec` with the columns of every predictor set in `sets`;
-/// with `plots`, also the plot column (its reason for the missing-column message).
+/// with `plots`, also the plot column (its reason for the missing-column message), and the
+/// `extra` (column, reason) pairs of options such as `--cluster`.
 ///
 /// # Errors
 /// Bad terms, options or data (exit code 2).
@@ -43,6 +44,7 @@ pub fn load_growth(
     spec: &GrowthSpec,
     sets: &[String],
     plots: Option<&str>,
+    extra: &[(String, &'static str)],
 ) -> Result<GrowthData, Error> {
     let mut required: Vec<Required> = Vec::new();
     let mut derived: Vec<DerivedCovariate> = Vec::new();
@@ -79,6 +81,11 @@ pub fn load_growth(
     }
     if let Some(why) = plots {
         required.push(Required::new(plot_column(&spec.data), why));
+    }
+    for (column, why) in extra {
+        if !required.iter().any(|q| &q.column == column) {
+            required.push(Required::new(column, *why));
+        }
     }
     let load = RemeasureSpec {
         names: spec.data.names.clone(),

@@ -29,6 +29,8 @@ pub struct LoadOptions {
     pub stands: bool,
     /// Why the stand column is needed, for the missing-column message.
     pub stands_why: String,
+    /// The plot column of a plot effect (`--plot-effect`).
+    pub plot: Option<String>,
 }
 
 /// Survival records ready for fitting: the frame plus the response and per-record arrays.
@@ -137,6 +139,10 @@ pub fn load_survival(spec: &SurvivalSpec, opts: &LoadOptions) -> Result<Survival
         (&spec.weights, "--weights"),
         (&spec.offset, "--offset"),
         (&opts.cluster, "--cluster"),
+        (
+            &opts.plot,
+            "--plot-effect (the plot column; name it with --plot COL)",
+        ),
     ] {
         if let Some(c) = col {
             required.push(Required::new(c, why));

@@ -4,11 +4,13 @@
 
 pub mod candidates;
 pub mod chart;
+pub mod cluster;
 pub mod curves;
 pub mod estimate;
 pub mod folds;
 pub mod growth;
 pub mod growth_load;
+pub mod growth_mixed;
 pub mod hd_summary;
 pub mod height;
 pub mod ingrowth;
@@ -17,9 +19,12 @@ pub mod ingrowth_summary;
 pub mod judge;
 pub mod load;
 pub mod measured;
+pub mod mixed;
+pub mod mixed_summary;
 pub mod rank;
 pub mod rank_growth;
 pub mod rank_growth_render;
+pub mod rank_mixed;
 pub mod rank_render;
 pub mod source;
 pub mod summary;
@@ -110,9 +115,17 @@ pub struct TermNeeds {
 /// A term outside the grammar (`docs/model-files.md#term-grammar`).
 pub fn term_needs(predictors: &str, data: &DataOptions) -> Result<TermNeeds, ModelError> {
     let terms = parse_predictors(predictors)?;
-    if terms.is_empty() {
+    let intercept_only = predictors
+        .split(',')
+        .any(|t| t.trim() == crate::model::terms::INTERCEPT_ONLY);
+    if terms.is_empty() && !intercept_only {
         return Err(ModelError::Invalid(
-            "--predictors is empty; give at least one term, e.g. --predictors \"dbh\"".into(),
+            "--predictors is empty; give at least one term, e.g. --predictors \"dbh\", or 1 for the intercept alone".into(),
+        ));
+    }
+    if terms.is_empty() && !data.intercept {
+        return Err(ModelError::Invalid(
+            "--predictors 1 fits the intercept alone, which --no-intercept removes; drop one of them".into(),
         ));
     }
     let mut required: Vec<Required> = Vec::new();

@@ -9,6 +9,7 @@ use rayon::prelude::*;
 use super::estimate::{estimate, glm_data, Estimate, Estimator};
 use super::folds::{base_response, cv_log_loss, stand_folds};
 use super::load::{load_survival, LoadOptions, SurvivalData};
+use super::mixed::SurvivalPlotEffect;
 use super::survival::SurvivalSpec;
 use super::term_needs;
 use crate::model::diagnostics::{lr_test, require_unit_binary, roc_auc, LrTest};
@@ -28,6 +29,8 @@ pub struct RankSpec {
     pub seed: u64,
     /// Iteration limit of every fit (`--max-iterations`).
     pub control: FitControl,
+    /// Also fit every candidate with a random plot intercept (`--plot-effect`).
+    pub plot_effect: Option<SurvivalPlotEffect>,
 }
 
 /// One candidate's fit statistics.
@@ -146,6 +149,7 @@ pub fn rank(spec: &RankSpec) -> Result<Ranking, Error> {
             cluster: None,
             stands: true,
             stands_why: "cross-validation folds grouped by plot (--plot or --stand COL)".into(),
+            plot: spec.plot_effect.as_ref().map(|p| p.plot.clone()),
         },
     )?;
     let stands = data.stands.as_deref().unwrap_or(&[]);
@@ -209,27 +213,68 @@ fn rank_loaded(
             Ok::<_, Error>((auc, loss?))
         })
         .collect::<Result<_, _>>()?;
-    let aic: Vec<f64> = fits.iter().map(|f| f.glm.aic).collect();
-    let weights = akaike_weights(&aic);
-    let min = aic.iter().copied().fold(f64::INFINITY, f64::min);
-    let mut rows: Vec<CandidateRow> = fits
-        .iter()
-        .zip(&spec.candidates)
-        .zip(judged.iter().zip(&weights))
-        .map(|((f, c), (&(auc, loss), &w))| CandidateRow {
-            predictors: c.clone(),
+    let row =
+        |predictors: String, f: &Estimate, k: usize, auc: Option<f64>, loss: f64| CandidateRow {
+            predictors,
             terms: f.glm.terms.clone(),
-            k: f.glm.coefficients.len(),
+            k,
             log_likelihood: f.glm.log_likelihood,
             aic: f.glm.aic,
-            delta_aic: f.glm.aic - min,
-            akaike_weight: w,
+            delta_aic: 0.0,
+            akaike_weight: 0.0,
             bic: f.glm.bic,
             auc,
             cv_log_loss: loss,
-        })
+        };
+    let mut rows: Vec<CandidateRow> = fits
+        .iter()
+        .zip(&spec.candidates)
+        .zip(&judged)
+        .map(|((f, c), &(auc, loss))| row(c.clone(), f, f.glm.coefficients.len(), auc, loss))
         .collect();
     let mut nested = Vec::new();
+    if let Some(pe) = &spec.plot_effect {
+        let limit = 4 * spec.control.max_iterations.max(50);
+        let mixed = super::rank_mixed::mixed_candidates(
+            s,
+            pe,
+            data,
+            &fits,
+            &response,
+            (folds, spec.folds),
+            limit,
+        )?;
+        for (m, c) in mixed.iter().zip(&spec.candidates) {
+            let auc = unit
+                .clone()
+                .and_then(|_| roc_auc(y, &m.estimate.fitted))
+                .ok()
+                .map(|a| a.auc);
+            let label = format!("{c} + plot effect");
+            let k = m.estimate.glm.coefficients.len() + 1;
+            rows.push(row(label.clone(), &m.estimate, k, auc, m.cv_log_loss));
+            let t = crate::model::mixed::boundary_lr_test(
+                m.estimate.glm.log_likelihood,
+                m.log_likelihood_without,
+            );
+            nested.push(NestedTest {
+                reduced: c.clone(),
+                full: label,
+                test: LrTest {
+                    statistic: t.statistic,
+                    df: 1,
+                    p_value: t.p_value,
+                },
+            });
+        }
+    }
+    let aic: Vec<f64> = rows.iter().map(|r| r.aic).collect();
+    let weights = akaike_weights(&aic);
+    let min = aic.iter().copied().fold(f64::INFINITY, f64::min);
+    for (r, w) in rows.iter_mut().zip(weights) {
+        r.delta_aic = r.aic - min;
+        r.akaike_weight = w;
+    }
     for (i, a) in fits.iter().enumerate() {
         for (j, b) in fits.iter().enumerate() {
             let sa: BTreeSet<&String> = a.glm.terms.iter().collect();

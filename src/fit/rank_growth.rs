@@ -141,6 +141,7 @@ pub fn rank_growth(spec: &GrowthRankSpec) -> Result<GrowthRanking, Error> {
         g,
         &spec.candidates,
         Some("cross-validation folds grouped by plot (--plot or --stand COL)"),
+        &[],
     )?;
     let plots = data.plots.as_deref().unwrap_or(&[]);
     let source = g.data.path.display().to_string();
@@ -153,7 +154,7 @@ pub fn rank_growth(spec: &GrowthRankSpec) -> Result<GrowthRanking, Error> {
                 data: for_candidate(&g.data, c),
                 ..g.clone()
             };
-            let fit = fit_growth_loaded(&cs, &data, c)?;
+            let fit = fit_growth_loaded(&cs, &data, c, &Default::default())?;
             Ok((fit.ols, design(&cs, &data, c)?))
         })
         .collect::<Result<_, Error>>()?;

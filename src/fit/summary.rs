@@ -106,7 +106,14 @@ pub fn growth_text(fit: &GrowthFit, source: &str) -> String {
         Some(p) => format!(" over {p} year{}", if p == 1.0 { "" } else { "s" }),
         None => String::new(),
     };
-    let mut out = format!("stemcast growth fit — least squares on {response}{period}\n");
+    let method = match &fit.plot_effect {
+        Some(pe) => format!(
+            "linear mixed model with a random plot intercept ({})",
+            super::mixed_summary::method_phrase(pe)
+        ),
+        None => "least squares".to_string(),
+    };
+    let mut out = format!("stemcast growth fit — {method} on {response}{period}\n");
     out.push_str(&format!(
         "  {source}: {} rows read, {} records fitted; left out: {} dead, {} cut, {} without a second diameter, {} ingrowth rows, {} with increment ≤ 0\n\n",
         c.rows_read, o.records, c.dead, c.censored, c.no_second_diameter, c.ingrowth, fit.non_positive_increment
@@ -120,14 +127,30 @@ pub fn growth_text(fit: &GrowthFit, source: &str) -> String {
         "t",
         t975,
     ));
-    out.push_str(&format!(
-        "\n  residual SD {:.6} on {} df   R² {:.4}   adjusted R² {:.4}\n",
-        o.residual_sd, o.df_residual, o.r_squared, o.adj_r_squared
-    ));
+    match (fit.covariance_kind, fit.n_clusters, &fit.plot_effect) {
+        (_, Some(g), _) => out.push_str(&format!(
+            "  standard errors, t, p and intervals: cluster-robust (CR1 sandwich, {g} clusters)\n"
+        )),
+        (_, _, Some(_)) => out.push_str(
+            "  standard errors: (Σ X_jᵀV_j⁻¹X_j)⁻¹ at the estimated variances; p and intervals from the normal distribution\n",
+        ),
+        _ => {}
+    }
+    if fit.plot_effect.is_some() {
+        out.push_str(&format!("\n  residual SD {:.6}\n", o.residual_sd));
+    } else {
+        out.push_str(&format!(
+            "\n  residual SD {:.6} on {} df   R² {:.4}   adjusted R² {:.4}\n",
+            o.residual_sd, o.df_residual, o.r_squared, o.adj_r_squared
+        ));
+    }
     out.push_str(&format!(
         "  log-likelihood {:.4}   AIC {:.4}   BIC {:.4}\n",
         o.log_likelihood, o.aic, o.bic
     ));
+    if let Some(pe) = &fit.plot_effect {
+        out.push_str(&super::mixed_summary::plot_effect_text(pe, false));
+    }
     out.push_str(&warnings_block(&fit.warnings));
     out.push_str(&format!("\n{CAUTION}\n"));
     out
@@ -143,6 +166,7 @@ pub fn growth_json(fit: &GrowthFit) -> Value {
         })
         .collect();
     let c = &fit.counts;
+    let finite = |v: f64| if v.is_finite() { json!(v) } else { Value::Null };
     json!({
         "kind": "growth", "response": fit.response, "period_years": fit.period_years,
         "records": o.records,
@@ -150,7 +174,10 @@ pub fn growth_json(fit: &GrowthFit) -> Value {
                      "no_second_diameter": c.no_second_diameter,
                      "non_positive_increment": fit.non_positive_increment},
         "coefficients": coefficients, "covariance": o.covariance,
-        "residual_sd": o.residual_sd, "r_squared": o.r_squared, "adj_r_squared": o.adj_r_squared,
+        "covariance_kind": fit.covariance_kind, "n_clusters": fit.n_clusters,
+        "residual_sd": o.residual_sd, "r_squared": finite(o.r_squared),
+        "adj_r_squared": finite(o.adj_r_squared),
+        "plot_effect": super::mixed_summary::plot_effect_json(fit.plot_effect.as_ref()),
         "df_residual": o.df_residual, "log_likelihood": o.log_likelihood, "aic": o.aic, "bic": o.bic,
         "screening": fit.screening.json(),
         "warnings": fit.warnings,

@@ -3,6 +3,7 @@
 use super::estimate::{estimate, inference, Estimate, Estimator, Inference};
 use super::judge::{diagnose, Diagnostics};
 use super::load::{load_survival, LoadOptions, SurvivalData};
+use super::mixed::{survival_plot_effect, PlotEffectSummary, SurvivalPlotEffect};
 use super::{DataOptions, Years};
 use crate::data::{Outcome, RemeasureCounts};
 use crate::model::file::{
@@ -83,6 +84,8 @@ pub struct FitOptions {
     pub curves: bool,
     /// Iteration limit of the fit (`--max-iterations`, R `glm.control(maxit)`).
     pub control: FitControl,
+    /// Fit a random plot intercept (`--plot-effect`, docs/mixed-models.md).
+    pub plot_effect: Option<SurvivalPlotEffect>,
 }
 
 /// A fitted survival model with everything the summary and the model file need.
@@ -117,6 +120,8 @@ pub struct SurvivalFit {
     pub screening: super::source::Screening,
     /// The model file to write with `--out`.
     pub model: ModelFile,
+    /// The plot effect of a mixed model (`glm` then holds the GLMM's estimates).
+    pub plot_effect: Option<PlotEffectSummary>,
 }
 
 /// Fit the survival model described by `spec` by maximum likelihood, model-based covariance.
@@ -146,12 +151,24 @@ pub fn check_options(spec: &SurvivalSpec, opts: &FitOptions) -> Result<(), Error
             ));
         }
     }
-    if opts.cluster.is_some()
-        && (opts.estimator == Estimator::Firth || spec.interval == IntervalKind::Annualized)
-    {
+    if opts.cluster.is_some() && opts.estimator == Estimator::Firth {
         return Err(Error::Usage(
-            "--cluster gives a cluster-robust covariance of the ordinary GLM; it cannot be combined with --firth or --interval annualized".into(),
+            "--cluster gives a cluster-robust covariance of the maximum-likelihood fit; it cannot be combined with --firth".into(),
         ));
+    }
+    if let Some(pe) = &opts.plot_effect {
+        if opts.estimator == Estimator::Firth {
+            return Err(Error::Usage(
+                "--plot-effect fits by maximum likelihood; it cannot be combined with --firth"
+                    .into(),
+            ));
+        }
+        if opts.cluster.is_some() {
+            return Err(Error::Usage(format!(
+                "--plot-effect models the correlation of records within a plot (`{}`); drop --cluster, or fit without --plot-effect for a cluster-robust covariance",
+                pe.plot
+            )));
+        }
     }
     if let Some(b) = &opts.dbh_classes {
         super::check_classes(b)?;
@@ -179,6 +196,7 @@ pub fn fit_survival_with(spec: &SurvivalSpec, opts: &FitOptions) -> Result<Survi
         &LoadOptions {
             predictor_sets: vec![spec.predictors.clone()],
             cluster: opts.cluster.clone(),
+            plot: opts.plot_effect.as_ref().map(|p| p.plot.clone()),
             ..LoadOptions::default()
         },
     )?;
@@ -196,8 +214,21 @@ pub fn fit_loaded(
     predictors: &str,
 ) -> Result<SurvivalFit, Error> {
     let est = estimate(spec, data, predictors, opts.estimator, &opts.control)?;
-    let inference = inference(&est, data, data.clusters.as_deref())?;
-    let diagnostics = diagnose(
+    let (est, plot_effect) = match &opts.plot_effect {
+        Some(pe) => {
+            let limit = 4 * opts.control.max_iterations.max(50);
+            let (e, s) = survival_plot_effect(spec, data, &est, pe, limit)?;
+            (e, Some(s))
+        }
+        None => (est, None),
+    };
+    let inference = match spec.interval {
+        IntervalKind::Annualized if plot_effect.is_none() => {
+            super::cluster::annualized_inference(&est, data, data.clusters.as_deref())?
+        }
+        _ => inference(&est, data, data.clusters.as_deref())?,
+    };
+    let mut diagnostics = diagnose(
         data,
         &est,
         opts.estimator,
@@ -216,7 +247,13 @@ pub fn fit_loaded(
     }
     warnings.extend(est.glm.warnings.iter().cloned());
     warnings.extend(est.design.warnings.iter().cloned());
-    let model = model_file(spec, &est, &inference, data, predictors, opts.estimator);
+    let mut model = model_file(spec, &est, &inference, data, predictors, opts.estimator);
+    if let Some(pe) = &plot_effect {
+        diagnostics.lr_test_vs_null = Err(crate::model::diagnostics::Unavailable(
+            "not reported with a plot effect; plot_effect.lr_test compares the model with and without it".into(),
+        ));
+        model.plot_effect = Some(pe.model_entry());
+    }
     Ok(SurvivalFit {
         glm: est.glm,
         estimator: opts.estimator,
@@ -232,6 +269,7 @@ pub fn fit_loaded(
         screening: data.screening.clone(),
         warnings,
         model,
+        plot_effect,
     })
 }
 
@@ -296,5 +334,6 @@ fn model_file(
             flagged_records: data.screening.file_count(),
             flagged_left_out: data.screening.file_left_out(),
         }),
+        plot_effect: None,
     }
 }

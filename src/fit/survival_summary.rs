@@ -16,6 +16,9 @@ pub const HL_RULE: &str = "10 groups cut at the type-7 deciles of the fitted pro
 
 fn covariance_line(fit: &SurvivalFit) -> String {
     let inf = &fit.inference;
+    if fit.plot_effect.is_some() {
+        return "inverse observed information of the marginal likelihood in (β, σ_u)".into();
+    }
     match (inf.kind, fit.estimator, fit.interval) {
         (CovarianceKind::ClusterRobust, _, _) => format!(
             "cluster-robust (CR1 sandwich, {} clusters)",
@@ -90,6 +93,22 @@ pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
             "annualised logistic survival (Newton–Raphson)"
         }
         Estimator::MaximumLikelihood => "binomial GLM",
+    };
+    let mixed;
+    let method = match &fit.plot_effect {
+        Some(pe) => {
+            mixed = format!(
+                "{} with a random plot intercept ({})",
+                if fit.interval == IntervalKind::Annualized {
+                    "annualised logistic survival"
+                } else {
+                    "binomial GLMM"
+                },
+                super::mixed_summary::method_phrase(pe)
+            );
+            mixed.as_str()
+        }
+        None => method,
     };
     let mut out = format!(
         "stemcast survival fit — {method}, {} link, modelling {what}\n",
@@ -169,7 +188,11 @@ pub fn survival_text(fit: &SurvivalFit, source: &str) -> String {
         Ok(c) => calibration_text(c, units),
         Err(u) => format!("  calibration by diameter class: {}\n", reason(u)),
     });
+    if let Some(pe) = &fit.plot_effect {
+        out.push_str(&super::mixed_summary::plot_effect_text(pe, true));
+    }
     let iterations = match (fit.estimator, fit.interval) {
+        _ if fit.plot_effect.is_some() => "quasi-Newton iterations",
         (Estimator::Firth, _) => "Firth Newton iterations",
         (_, IntervalKind::Annualized) => "Newton–Raphson iterations",
         _ => "IRLS iterations",
@@ -257,7 +280,7 @@ pub fn survival_json(fit: &SurvivalFit) -> Value {
     } else {
         Value::Null
     };
-    json!({
+    let mut out = json!({
         "kind": "survival", "link": g.link.name(), "outcome": fit.outcome.as_str(),
         "interval": fit.model.interval, "period_years": fit.period_years, "estimator": estimator,
         "records": g.n_obs, "censored": fit.counts.censored, "ingrowth_excluded": fit.counts.ingrowth,
@@ -274,5 +297,7 @@ pub fn survival_json(fit: &SurvivalFit) -> Value {
                         "calibration": cal_why},
         "screening": fit.screening.json(),
         "warnings": fit.warnings,
-    })
+    });
+    out["plot_effect"] = super::mixed_summary::plot_effect_json(fit.plot_effect.as_ref());
+    out
 }

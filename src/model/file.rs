@@ -143,6 +143,40 @@ pub struct FitInfo {
     pub flagged_left_out: Option<bool>,
 }
 
+/// The plot effect of a mixed model (`[plot_effect]`): the SD of the random plot intercept,
+/// how it was estimated, and the fitted plots' conditional modes (docs/mixed-models.md).
+/// A hand-typed file may give only `sd`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlotEffectEntry {
+    /// σ_u, on the linear-predictor scale of the model.
+    pub sd: f64,
+    /// laplace | agq | reml | ml.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub method: Option<String>,
+    /// Quadrature nodes of a GLMM fit.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub nodes: Option<u32>,
+    /// The column that named the plots.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub column: Option<String>,
+    /// Fitted plots' conditional modes and SDs (`[[plot_effect.plots]]`).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub plots: Vec<PlotModeEntry>,
+}
+
+/// One fitted plot's conditional mode and SD.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PlotModeEntry {
+    /// The plot id as in the data.
+    pub plot: String,
+    /// Conditional mode û_j.
+    pub mode: f64,
+    /// Conditional SD.
+    pub sd: f64,
+}
+
 /// The model file exactly as stored (`docs/model-files.md#keys`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -181,6 +215,9 @@ pub struct ModelFile {
     /// Facts about the fit.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub fit: Option<FitInfo>,
+    /// The random plot intercept of a mixed model.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub plot_effect: Option<PlotEffectEntry>,
 }
 
 impl ModelFile {

@@ -2,6 +2,7 @@
 //! growth OLS, diagnostics, and the model file format.
 
 pub mod annualized;
+pub mod cluster;
 mod compile_error;
 pub mod design;
 pub mod diagnostics;
@@ -19,6 +20,7 @@ pub mod ingrowth_trees;
 pub(crate) mod irls;
 pub mod linalg;
 pub mod link;
+pub mod mixed;
 pub mod nls;
 pub mod predictor;
 pub mod robust;

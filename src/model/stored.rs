@@ -11,6 +11,8 @@ use super::file::{
     ModelFile, ModelKind, Outcome,
 };
 use super::link::Link;
+use super::mixed::entry::plot_effect_from;
+pub use super::mixed::entry::PlotEffect;
 use super::terms::{Factor, Term, INTERCEPT};
 use super::ModelError;
 use crate::data::Units;
@@ -73,6 +75,8 @@ pub struct ModelCommon {
     pub covariance: Option<Covariance>,
     /// Facts about the fit.
     pub fit: Option<FitInfo>,
+    /// The random plot intercept of a mixed model (docs/mixed-models.md).
+    pub plot_effect: Option<PlotEffect>,
 }
 
 /// A periodic survival model.
@@ -154,6 +158,11 @@ impl Model {
             categorical: raw.categorical.clone(),
             covariance,
             fit: raw.fit.clone(),
+            plot_effect: raw
+                .plot_effect
+                .as_ref()
+                .map(|p| plot_effect_from(p, &err))
+                .transpose()?,
         };
         match raw.kind {
             ModelKind::Height | ModelKind::Volume => Err(err(

@@ -168,14 +168,15 @@ impl Term {
     }
 }
 
-/// Parse a comma-separated predictor list (`"dbh, dbh^2, bal, treatment"`).
+/// Parse a comma-separated predictor list (`"dbh, dbh^2, bal, treatment"`). A term `1` is
+/// the intercept, as in R formulas: `"1"` alone is the intercept-only model (no terms).
 ///
 /// # Errors
-/// The first term that does not parse; an empty list; a term given twice.
+/// The first term that does not parse; a term given twice.
 pub fn parse_predictors(text: &str) -> Result<Vec<Term>, ModelError> {
     let mut terms: Vec<Term> = Vec::new();
     for piece in split_outside_quotes(text, ',') {
-        if piece.trim().is_empty() {
+        if piece.trim().is_empty() || piece.trim() == INTERCEPT_ONLY {
             continue;
         }
         let term = Term::parse(&piece)?;
@@ -189,6 +190,9 @@ pub fn parse_predictors(text: &str) -> Result<Vec<Term>, ModelError> {
     }
     Ok(terms)
 }
+
+/// The predictor list (or term) that stands for the intercept, as R's `~ 1`.
+pub const INTERCEPT_ONLY: &str = "1";
 
 /// Split on `sep` where it is outside double quotes and parentheses.
 fn split_outside_quotes(text: &str, sep: char) -> Vec<String> {
