@@ -11,6 +11,7 @@ pub mod html;
 mod page;
 mod page_models;
 mod tables;
+mod validate;
 
 use std::path::{Path, PathBuf};
 
@@ -27,6 +28,9 @@ pub use charts_classes::{distribution_chart_svg, distribution_years};
 pub use compare::{difference_chart_svg, differences_csv, render_comparison, write_comparison};
 pub use page::projection_report;
 pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
+pub use validate::{
+    validation_csv, validation_plots_csv, validation_survival_csv, PLOT_COLUMNS, VALIDATION_NOTE,
+};
 
 use crate::project::{Driver, ProjectionResult};
 
