@@ -6,6 +6,7 @@ pub mod candidates;
 pub mod chart;
 pub mod curves;
 pub mod estimate;
+pub mod exclude;
 pub mod folds;
 pub mod growth;
 pub mod growth_load;
