@@ -254,7 +254,7 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
             Some((x, _)) => flagged
                 .iter()
                 .zip(x)
-                .map(|(f, x)| !(drop && *f) && !x)
+                .map(|(f, x)| !(*x || (drop && *f)))
                 .collect(),
             None => flagged.iter().map(|f| !f).collect(),
         };
