@@ -10,8 +10,8 @@ use stemcast::project::{
     Span, ValidateOptions,
 };
 use stemcast::report::{
-    validation_csv, validation_plots_csv, validation_survival_csv, write_files_atomically,
-    VALIDATION_NOTE,
+    validation_csv, validation_plots_csv, validation_report, validation_survival_csv,
+    write_files_atomically, VALIDATION_NOTE,
 };
 use stemcast::scenario::Scenario;
 use stemcast::Error;
@@ -181,7 +181,16 @@ pub fn run(a: &Args) -> Result<(), Error> {
     };
     let summary = summarise_validation(&results, &grouping);
     let calibration = survival_calibration(&results, &a.dbh_classes);
+    let subtitle = format!(
+        "stemcast {}; scenario {}; history {}; seed {}",
+        env!("CARGO_PKG_VERSION"),
+        a.scenario.display(),
+        a.history.display(),
+        grouping.seed
+    );
+    let page = validation_report(&results, &summary, &subtitle)?;
     let files = vec![
+        ("validation.html".to_string(), page),
         ("validation.csv".to_string(), validation_csv(&summary)),
         (
             "validation_plots.csv".to_string(),

@@ -86,17 +86,25 @@ fn summarise_group(
         by_plot.entry(o.0).or_default().push(i);
     }
     let clusters: Vec<&Vec<usize>> = by_plot.values().collect();
-    // CR0 cluster standard error of a mean: sqrt(Σ_g (Σ_{i∈g} (e_i − ē))²) / n.
-    let se_bias = clusters
-        .iter()
-        .map(|rows| {
-            rows.iter()
-                .map(|&i| obs[i].1 - obs[i].2 - bias)
-                .sum::<f64>()
-                .powi(2)
-        })
-        .sum::<f64>()
-        .sqrt()
+    // Cluster (CR1) standard error of a mean over G plots:
+    // sqrt(G/(G − 1) · Σ_g (Σ_{i∈g} (e_i − ē))²) / n (docs/validation.md).
+    let g_count = clusters.len() as f64;
+    let cr1 = if g_count > 1.0 {
+        (g_count / (g_count - 1.0)).sqrt()
+    } else {
+        f64::NAN
+    };
+    let se_bias = cr1
+        * clusters
+            .iter()
+            .map(|rows| {
+                rows.iter()
+                    .map(|&i| obs[i].1 - obs[i].2 - bias)
+                    .sum::<f64>()
+                    .powi(2)
+            })
+            .sum::<f64>()
+            .sqrt()
         / nf;
     let inside: Option<Vec<f64>> = obs.iter().map(|o| o.3).collect();
     let (coverage, coverage_interval) = match inside {

@@ -12,6 +12,7 @@ mod page;
 mod page_models;
 mod tables;
 mod validate;
+mod validate_page;
 
 use std::path::{Path, PathBuf};
 
@@ -31,6 +32,7 @@ pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
 pub use validate::{
     validation_csv, validation_plots_csv, validation_survival_csv, PLOT_COLUMNS, VALIDATION_NOTE,
 };
+pub use validate_page::validation_report;
 
 use crate::project::{Driver, ProjectionResult};
 
