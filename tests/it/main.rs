@@ -65,3 +65,4 @@ mod report_browser;
 mod scenario_cohort;
 mod scenario_errors;
 mod terms_design;
+mod validate;
