@@ -178,7 +178,7 @@ pub fn run(args: &Args) -> Result<(), stemcast::Error> {
     } else {
         format!(" (skipped {})", skipped.join(", "))
     };
-    println!(
+    outln!(
         "{}: projected {} stand{}{skipped}; wrote {}",
         scenario.name,
         counts.projected,

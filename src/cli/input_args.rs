@@ -71,6 +71,10 @@ pub struct FitInputArgs {
     /// reason, value, detail).
     #[arg(long, value_name = "FILE")]
     pub(crate) screen: Option<PathBuf>,
+    /// Leave the plots listed in this file (one id per line) out of the fit, e.g. to validate
+    /// on them (docs/validation.md).
+    #[arg(long, value_name = "FILE")]
+    pub(crate) exclude_plots: Option<PathBuf>,
 }
 
 /// The status-code map of `--status-codes`.
@@ -145,5 +149,10 @@ pub(crate) fn input_options(a: &FitInputArgs) -> Result<InputOptions, Error> {
             z_limit: a.screen_z,
             drop_flagged: a.drop_flagged,
         },
+        exclude_plots: a
+            .exclude_plots
+            .as_deref()
+            .map(stemcast::data::read_plot_list)
+            .transpose()?,
     })
 }

@@ -5,7 +5,10 @@ use std::path::PathBuf;
 
 use clap::Args as ClapArgs;
 use stemcast::atomic::write_atomic;
-use stemcast::data::{derive_intervals, frame_csv, read_history, ColumnNames, HistorySpec};
+use stemcast::data::{
+    derive_intervals, frame_csv, plot_list_text, read_history, split_plots, ColumnNames,
+    HistorySpec,
+};
 use stemcast::Error;
 
 use super::fit_args::UnitsArg;
@@ -18,8 +21,18 @@ pub struct Args {
     /// History CSV: one row per tree per measurement.
     history: PathBuf,
     /// Write the interval table here (CSV).
-    #[arg(long, value_name = "FILE")]
-    out: PathBuf,
+    #[arg(long, value_name = "FILE", required_unless_present = "split_plots")]
+    out: Option<PathBuf>,
+    /// Choose this fraction of the plots at random (for out-of-sample validation) and write
+    /// their ids to --plots-out (docs/validation.md).
+    #[arg(long, value_name = "FRACTION", requires_all = ["plots_out", "seed"])]
+    split_plots: Option<f64>,
+    /// Seed of --split-plots.
+    #[arg(long, value_name = "S", requires = "split_plots")]
+    seed: Option<u64>,
+    /// The plot list that --split-plots writes (one id per line).
+    #[arg(long, value_name = "FILE", requires = "split_plots")]
+    plots_out: Option<PathBuf>,
     /// Also write the ingrowth of every plot and period here (CSV).
     #[arg(long, value_name = "FILE")]
     ingrowth: Option<PathBuf>,
@@ -72,11 +85,30 @@ pub fn run(a: &Args) -> Result<(), Error> {
         units: a.units.into(),
     };
     let history = read_history(&a.history, &spec)?;
+    if let (Some(f), Some(seed), Some(path)) = (a.split_plots, a.seed, &a.plots_out) {
+        if !(f > 0.0 && f < 1.0) {
+            return Err(Error::Usage(format!(
+                "--split-plots {f}: give a fraction between 0 and 1"
+            )));
+        }
+        let ids = split_plots(&history.plots, f, seed);
+        let note = format!(
+            "{} of {} plots of {} (--split-plots {f} --seed {seed})",
+            ids.len(),
+            history.plots.len(),
+            a.history.display()
+        );
+        write_atomic(path, plot_list_text(&ids, &note).as_bytes())?;
+        outln!("{note}: wrote {}", path.display());
+    }
+    let Some(out) = &a.out else {
+        return Ok(());
+    };
     let pairing = history.pair()?;
     let (records, columns) = derive_intervals(&history, &pairing)?;
     let ingrowth_csv = a.ingrowth.as_ref().map(|_| pairing.ingrowth.periods_csv());
-    super::out::distinct(&a.out, &[&a.history])?;
-    write_atomic(&a.out, frame_csv(&records.frame, &columns).as_bytes())?;
+    super::out::distinct(out, &[&a.history])?;
+    write_atomic(out, frame_csv(&records.frame, &columns).as_bytes())?;
     if let (Some(path), Some(csv)) = (&a.ingrowth, ingrowth_csv) {
         write_atomic(path, csv.as_bytes())?;
     }
@@ -106,7 +138,7 @@ pub fn run(a: &Args) -> Result<(), Error> {
             c.ignored_rows, c.reappeared
         );
     }
-    outln!("  wrote {}", a.out.display());
+    outln!("  wrote {}", out.display());
     if let Some(p) = &a.ingrowth {
         outln!("  wrote {}", p.display());
     }

@@ -22,7 +22,7 @@ pub struct Args {
 /// Missing, duplicated or foreign parts, incomplete parts (exit 2); I/O (exit 1).
 pub fn run(args: &Args) -> Result<(), stemcast::Error> {
     let m = stemcast::report::merge_parts(&args.parts, args.trees.as_deref(), &args.out)?;
-    println!(
+    outln!(
         "merged {} stands from {} parts into {}",
         m.stands,
         m.parts,

@@ -17,6 +17,7 @@ mod merge;
 mod project;
 mod rank;
 mod run_args;
+mod validate;
 
 use clap::{Parser, Subcommand};
 use stemcast::Error;
@@ -52,6 +53,8 @@ enum Command {
     Rank(Box<rank::RankArgs>),
     /// Pair a measurement history into the interval table (fates, derived covariates).
     Intervals(Box<intervals::Args>),
+    /// Project every plot-interval of a measurement history and compare with the remeasurement.
+    Validate(Box<validate::Args>),
 }
 
 /// Run the parsed command.
@@ -66,5 +69,6 @@ pub fn run(cli: Cli) -> Result<(), Error> {
         Command::Fit(c) => fit::run(*c),
         Command::Rank(a) => rank::run(*a),
         Command::Intervals(a) => intervals::run(&a),
+        Command::Validate(a) => validate::run(&a),
     }
 }

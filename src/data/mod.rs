@@ -15,6 +15,7 @@ pub mod limits;
 mod pair_file;
 mod pairing;
 mod pairing_walk;
+mod plot_list;
 mod remeasure;
 mod screen;
 mod status;
@@ -37,6 +38,7 @@ pub use interval_table::{
 };
 pub use pair_file::{load_remeasurement, load_remeasurement_bytes};
 pub use pairing::{Fate, Intervals, NewTree, Occasion, Pairing, PairingCounts, Reappearance};
+pub use plot_list::{plot_list_text, read_plot_list, split_plots, MAX_LISTED_PLOTS};
 pub use remeasure::{
     ColumnNames, Purpose, RemeasureCounts, RemeasureSpec, Remeasurement, Required,
 };

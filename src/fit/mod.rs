@@ -7,6 +7,7 @@ pub mod chart;
 pub mod cluster;
 pub mod curves;
 pub mod estimate;
+pub mod exclude;
 pub mod folds;
 pub mod growth;
 pub mod growth_load;

@@ -22,6 +22,9 @@ pub struct InputOptions {
     pub history: Option<HistoryOptions>,
     /// Data screening.
     pub screen: ScreenOptions,
+    /// Plots to leave out of the fit (`--exclude-plots`, docs/validation.md): records whose
+    /// plot column holds one of these ids.
+    pub exclude_plots: Option<std::collections::BTreeSet<String>>,
 }
 
 /// The options of a history beyond the role columns (the stand column is the plot; the tree
@@ -232,22 +235,45 @@ pub fn load_records(data: &DataOptions, mut spec: RemeasureSpec) -> Result<Loade
             flagged[r] = true;
         }
     }
+    let excluded = super::exclude::excluded(&records.frame, plot_column(data), &data.input);
     let flagged_records = flagged.iter().filter(|&&f| f).count();
     let mut left_out = 0;
-    if screen_opts.drop_flagged && flagged_records > 0 {
-        let keep: Vec<bool> = flagged.iter().map(|f| !f).collect();
+    if let Some((excluded, note)) = &excluded {
+        records.warnings.push(note.clone());
+        if screen_opts.drop_flagged {
+            left_out = flagged
+                .iter()
+                .zip(excluded)
+                .filter(|(f, x)| **f && !**x)
+                .count();
+        }
+    }
+    if (screen_opts.drop_flagged && flagged_records > 0) || excluded.is_some() {
+        let drop = screen_opts.drop_flagged;
+        let keep: Vec<bool> = match &excluded {
+            Some((x, _)) => flagged
+                .iter()
+                .zip(x)
+                .map(|(f, x)| !(*x || (drop && *f)))
+                .collect(),
+            None => flagged.iter().map(|f| !f).collect(),
+        };
         records.frame.retain(&keep);
         if let Some(alive) = records.alive.as_mut() {
             let mut it = keep.iter();
             alive.retain(|_| it.next().copied().unwrap_or(false));
         }
-        left_out = flagged_records;
+        if excluded.is_none() {
+            left_out = flagged_records;
+        }
         records.counts.records = records.frame.len();
         if records.frame.is_empty() {
-            return Err(Error::Usage(format!(
-                "{}: every record was flagged by screening, so --drop-flagged leaves nothing to fit",
-                data.path.display()
-            )));
+            let why = if excluded.is_some() {
+                "no record is left to fit after --exclude-plots (and --drop-flagged)"
+            } else {
+                "every record was flagged by screening, so --drop-flagged leaves nothing to fit"
+            };
+            return Err(Error::Usage(format!("{}: {why}", data.path.display())));
         }
     }
     let screening = Screening {

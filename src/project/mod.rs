@@ -20,6 +20,9 @@ mod species_actions;
 mod stand;
 mod step;
 mod summary;
+mod validate;
+mod validate_cases;
+mod validate_stats;
 
 use std::sync::atomic::{AtomicUsize, Ordering};
 
@@ -37,6 +40,14 @@ pub use result::{
 };
 pub use shard_env::shard_text_from;
 pub use summary::{percentile_type7, summarise};
+pub use validate::{
+    build_cases, inside_band, run_case, run_validation, sub_steps, CaseResult, Compared, Span,
+    ValidateOptions, METRICS,
+};
+pub use validate_cases::Case;
+pub use validate_stats::{
+    qmd_class, summarise_validation, survival_calibration, Grouping, SummaryRow, SurvivalClass,
+};
 
 use crate::scenario::Scenario;
 use drivers::{Engine, CLASS_WIDTH_CM};

@@ -13,6 +13,8 @@ mod merge;
 mod page;
 mod page_models;
 mod tables;
+mod validate;
+mod validate_page;
 
 use std::path::{Path, PathBuf};
 
@@ -31,6 +33,10 @@ pub use compare::{difference_chart_svg, differences_csv, render_comparison, writ
 pub use merge::{merge_parts, Merged};
 pub use page::projection_report;
 pub use tables::{classes_csv, harvest_csv, run_json, summary_csv, trees_csv};
+pub use validate::{
+    validation_csv, validation_plots_csv, validation_survival_csv, PLOT_COLUMNS, VALIDATION_NOTE,
+};
+pub use validate_page::validation_report;
 
 use crate::project::{Driver, ProjectionResult};
 

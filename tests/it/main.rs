@@ -78,3 +78,4 @@ mod slurm;
 mod species_actions;
 mod species_cohort;
 mod terms_design;
+mod validate;
