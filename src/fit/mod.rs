@@ -12,6 +12,7 @@ pub mod growth_load;
 pub mod hd_summary;
 pub mod height;
 pub mod ingrowth;
+pub mod ingrowth_history;
 pub mod ingrowth_load;
 pub mod ingrowth_summary;
 pub mod judge;
