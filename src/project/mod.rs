@@ -9,6 +9,7 @@ mod binomial;
 mod compare;
 mod drivers;
 mod harvest;
+pub mod ingrowth;
 mod params;
 mod plan;
 mod result;
