@@ -8,7 +8,7 @@ use std::collections::BTreeMap;
 use std::path::PathBuf;
 
 use super::ingrowth_load::{positive_numbers, read_counts, read_tree_records};
-use crate::data::{read_table, FrameColumn, TableOptions, Units};
+use crate::data::{read_table, FrameColumn, Table, TableOptions, Units};
 use crate::model::design::{build_design, Design, DesignOptions};
 use crate::model::file::{CoefficientEntry, CovarianceEntry, CovarianceKind};
 use crate::model::hurdle::{fit_hurdle, HurdleFit, PlotPeriods};
@@ -85,16 +85,38 @@ pub struct IngrowthFit {
 /// Bad data (a count that is not a whole number ≥ 0, a non-positive area or period, naming
 /// file, line and column), unknown columns or terms (exit code 2); non-convergence (1).
 pub fn fit_ingrowth(spec: &IngrowthSpec) -> Result<IngrowthFit, Error> {
-    let any_terms = role_terms(&spec.predictors, spec)?;
-    let count_terms = match &spec.count_predictors {
-        Some(p) => role_terms(p, spec)?,
-        None => any_terms.clone(),
-    };
+    // Term errors before the file is read.
+    role_terms(&spec.predictors, spec)?;
+    if let Some(p) = &spec.count_predictors {
+        role_terms(p, spec)?;
+    }
     let options = TableOptions {
         categorical: spec.categorical.clone(),
         columns: None,
     };
     let table = read_table(&spec.path, &options)?;
+    let trees = match &spec.trees {
+        None => None,
+        Some(t) => Some(tree_summary(t)?),
+    };
+    fit_plot_periods(spec, &table, trees)
+}
+
+/// Fit the ingrowth hurdle of `spec` to a plot-period table already read (from a file, or
+/// derived from a history by [`super::ingrowth_history`]), with the new trees' summary.
+///
+/// # Errors
+/// As [`fit_ingrowth`].
+pub fn fit_plot_periods(
+    spec: &IngrowthSpec,
+    table: &Table,
+    trees: Option<IngrowthTrees>,
+) -> Result<IngrowthFit, Error> {
+    let any_terms = role_terms(&spec.predictors, spec)?;
+    let count_terms = match &spec.count_predictors {
+        Some(p) => role_terms(p, spec)?,
+        None => any_terms.clone(),
+    };
     for (column, flag) in [
         (&spec.count, "--count"),
         (&spec.area, "--area"),
@@ -159,10 +181,6 @@ pub fn fit_ingrowth(spec: &IngrowthSpec) -> Result<IngrowthFit, Error> {
             .iter()
             .map(|w| format!("count part: {w}")),
     );
-    let trees = match &spec.trees {
-        None => None,
-        Some(t) => Some(tree_summary(t)?),
-    };
     let model = model_file(
         spec,
         &table.sha256,

@@ -15,6 +15,7 @@ pub mod growth_mixed;
 pub mod hd_summary;
 pub mod height;
 pub mod ingrowth;
+pub mod ingrowth_history;
 pub mod ingrowth_load;
 pub mod ingrowth_summary;
 pub mod judge;

@@ -10,6 +10,7 @@ mod compare;
 mod drivers;
 mod fingerprint;
 mod harvest;
+pub mod ingrowth;
 mod params;
 mod plan;
 mod result;

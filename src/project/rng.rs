@@ -8,6 +8,7 @@ pub(crate) enum Purpose {
     Survival = 1,
     GrowthResidual = 2,
     Parameters = 3,
+    Ingrowth = 4,
 }
 
 /// A 64-bit finaliser with full avalanche (Pelle Evensen's "moremur" constants for the

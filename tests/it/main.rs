@@ -44,6 +44,7 @@ mod hd_volume;
 mod histories;
 mod imperial_trees;
 mod ingrowth_cli;
+mod ingrowth_history;
 mod ingrowth_model_file;
 mod ingrowth_own;
 mod ingrowth_recovery;
