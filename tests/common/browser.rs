@@ -125,3 +125,14 @@ pub fn render(html: &Path, png: &Path) -> Rendered {
         png: png.to_path_buf(),
     }
 }
+
+/// A browser check that could not run: a failure when `.ci/run` asked for browser tests
+/// (`STEMCAST_BROWSER_TEST` set), else a note on standard error so that `cargo test` on a
+/// machine without Chromium stays self-contained.
+pub fn skipped(reason: &str) {
+    assert!(
+        std::env::var_os("STEMCAST_BROWSER_TEST").is_none(),
+        "STEMCAST_BROWSER_TEST is set but the browser check cannot run: {reason}"
+    );
+    eprintln!("browser check skipped: {reason}");
+}

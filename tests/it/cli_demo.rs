@@ -46,7 +46,7 @@ fn demo_report_opens_in_a_browser_with_its_charts() {
     assert_eq!(out.status.code(), Some(0), "{}", stderr(&out));
     let html = sb.path("d/comparison/report.html");
     match render(&html, &sb.path("report.png")) {
-        Rendered::Skipped(why) => eprintln!("browser check skipped: {why}"),
+        Rendered::Skipped(why) => crate::browser::skipped(&why),
         Rendered::Done { dom, console, png } => {
             assert!(console.is_empty(), "console messages: {console:?}");
             // Five charts: survival, stems/ha, two differences, diameter distributions.

@@ -42,7 +42,7 @@ fn assert_self_contained(html: &str) {
 /// Render and check: loaded without console messages, at least `svgs` charts, a real image.
 fn check_render(s: &Sandbox, html: &std::path::Path, svgs: usize) {
     match render(html, &s.path("page.png")) {
-        Rendered::Skipped(reason) => eprintln!("browser check skipped: {reason}"),
+        Rendered::Skipped(reason) => crate::browser::skipped(&reason),
         Rendered::Done { dom, console, png } => {
             assert!(console.is_empty(), "console messages: {console:?}");
             assert!(dom.contains("</main>"), "page loaded completely");
