@@ -6,9 +6,7 @@ use std::path::PathBuf;
 
 use indicatif::{ProgressBar, ProgressStyle};
 use stemcast::data::{ColumnNames, TreeListSpec, TreeListStream};
-use stemcast::project::{
-    run_batch, shard_text_from, BatchOptions, RunOptions, RunRecord, Shard, StandOutcome,
-};
+use stemcast::project::{run_batch, shard_text_from, BatchOptions, RunRecord, Shard, StandOutcome};
 use stemcast::report::{rows_per_stand, BatchLog, BatchOutput};
 use stemcast::scenario::Scenario;
 
@@ -34,21 +32,12 @@ pub struct Args {
     /// Take the part `K/N` from this environment variable (for other schedulers).
     #[arg(long, value_name = "VAR", conflicts_with = "shard")]
     pub shard_env: Option<String>,
-    /// Worker threads (default: all cores); results do not depend on it.
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
-    pub threads: Option<u64>,
+    /// Replicates, seed, driver and threads.
+    #[command(flatten)]
+    pub run: super::run_args::RunArgs,
     /// Keep the stands already in the output file and append the others.
     #[arg(long)]
     pub resume: bool,
-    /// Monte Carlo replicates (overrides the scenario).
-    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u64).range(1..))]
-    pub replicates: Option<u64>,
-    /// Seed of the random draws (overrides the scenario).
-    #[arg(long, value_name = "S")]
-    pub seed: Option<u64>,
-    /// Run the deterministic expected-value driver instead of Monte Carlo.
-    #[arg(long)]
-    pub expected: bool,
     /// Tree-list column with each stand's age at year 0 (one value per stand).
     #[arg(long, value_name = "COL")]
     pub age: Option<String>,
@@ -83,12 +72,7 @@ pub fn run(args: &Args) -> Result<(), stemcast::Error> {
         categorical,
     };
     let stands = TreeListStream::open(&args.trees, &spec)?;
-    let run_options = RunOptions {
-        expected: args.expected,
-        replicates: args.replicates.map(|n| n as usize),
-        seed: args.seed,
-        threads: args.threads.map(|n| n as usize),
-    };
+    let run_options = args.run.options();
     let mut row_options = vec![format!("stand={}", args.stand)];
     row_options.extend(args.age.iter().map(|a| format!("age={a}")));
     row_options.extend(args.carry.iter().map(|c| format!("carry={c}")));
